@@ -1,0 +1,248 @@
+"""Runs a study: every scenario through the state-dependent solver.
+
+This module orchestrates the numeric core (:mod:`riskdiet.grid`,
+:mod:`riskdiet.solver`) and packs the numbers into documented result
+dataclasses with names instead of indices. The CLI and the report only format
+these results; they never recompute.
+
+Scenarios are independent, so :func:`solve` accepts any
+:class:`concurrent.futures.Executor` to run them in parallel.
+"""
+
+from __future__ import annotations
+
+from concurrent.futures import Executor
+from dataclasses import dataclass, field
+import numpy as np
+
+import riskdiet
+from riskdiet.grid import Grid, make_grid
+from riskdiet.model import Predator, Prey, Scenario, Study
+from riskdiet.solver import Solution, solve_grid
+
+CONDITIONS = ("healthy", "injured")
+
+
+@dataclass(frozen=True)
+class AttackRange:
+    """A run of consecutive living levels at which one prey is attacked.
+
+    Attributes
+    ----------
+    prey : str
+        Prey name.
+    condition : str
+        ``healthy`` or ``injured``.
+    low_fraction, high_fraction : float
+        Lowest and highest reserves of the run, as fractions of capacity.
+    low_mj, high_mj : float
+        The same in MJ.
+    """
+
+    prey: str
+    condition: str
+    low_fraction: float
+    high_fraction: float
+    low_mj: float
+    high_mj: float
+
+
+@dataclass(frozen=True)
+class ScenarioResult:
+    """State-dependent answer for one scenario.
+
+    Attributes
+    ----------
+    name : str
+        Scenario name (``baseline`` first).
+    currency : str
+        ``breeding`` or ``season``.
+    predator : Predator
+        Predator inputs as used (scenario changes applied).
+    prey : tuple of Prey
+        Prey inputs as used.
+    reserves_mj : ndarray, shape (n + 1,)
+        Reserves x_j = j R / n at every level [MJ].
+    fitness : dict of str to ndarray
+        V at every level for ``healthy`` and ``injured`` [probability]; day 0
+        for the season currency.
+    fitness_at_start : float
+        V(j0, healthy) [probability].
+    policy : dict of str to list of list of str
+        For each condition and level, the prey worth attacking, best first.
+    marginal_hunting_ability : float
+        dV(j0, healthy)/da, policy held fixed [probability per unit ability].
+    elasticity : float
+        (a / V) dV/da [dimensionless]; NaN when V = 0.
+    residual : float
+        Final Bellman residual.
+    grid, solution
+        The discretised inputs and the numeric-core solution, for downstream
+        analyses (kill predictions, figures).
+    """
+
+    name: str
+    currency: str
+    predator: Predator
+    prey: tuple[Prey, ...]
+    reserves_mj: np.ndarray
+    fitness: dict[str, np.ndarray]
+    fitness_at_start: float
+    policy: dict[str, list[list[str]]]
+    marginal_hunting_ability: float
+    elasticity: float
+    residual: float
+    iterations: int
+    converged: bool
+    linear_solver: str
+    grid: Grid = field(repr=False)
+    solution: Solution = field(repr=False)
+
+    @property
+    def prey_names(self) -> list[str]:
+        return [p.name for p in self.prey]
+
+    def attack_ranges(self) -> list[AttackRange]:
+        """Runs of reserves over which each prey is attacked, per condition."""
+        out = []
+        n = self.grid.n
+        cap = self.predator.reserve_capacity_mj
+        living = self.grid.living
+        for k, cond in enumerate(CONDITIONS):
+            attacked = self.solution.priority[k][living] >= 0  # (m, P)
+            for i, name in enumerate(self.prey_names):
+                for lo, hi in _runs(attacked[:, i]):
+                    jl, jh = living[lo], living[hi]
+                    out.append(AttackRange(name, cond, float(jl / n), float(jh / n), float(jl * cap / n),
+                                           float(jh * cap / n)))
+        return out
+
+    def to_dict(self) -> dict:
+        """JSON-ready dictionary (the ``solve --json`` layout)."""
+        return {
+            "name": self.name,
+            "currency": self.currency,
+            "reserves_mj": _floats(self.reserves_mj),
+            "fitness": {c: _floats(v) for c, v in self.fitness.items()},
+            "fitness_at_start": _float(self.fitness_at_start),
+            "policy": self.policy,
+            "selection_gradient": {"hunting_ability": _float(self.marginal_hunting_ability),
+                                   "elasticity": _float(self.elasticity)},
+            "residual": _float(self.residual),
+            "iterations": self.iterations,
+            "converged": self.converged,
+            "linear_solver": self.linear_solver,
+        }
+
+
+@dataclass(frozen=True)
+class StudyResult:
+    """Results of every scenario of a study.
+
+    Attributes
+    ----------
+    study : Study
+        The study as read.
+    scenarios : tuple of ScenarioResult
+        Baseline first, then the scenarios in input order.
+    riskdiet_version : str
+        Version that computed the results.
+    """
+
+    study: Study
+    scenarios: tuple[ScenarioResult, ...]
+    riskdiet_version: str = riskdiet.__version__
+
+    def scenario(self, name: str) -> ScenarioResult:
+        for s in self.scenarios:
+            if s.name == name:
+                return s
+        raise KeyError(name)
+
+    def to_dict(self) -> dict:
+        """JSON-ready dictionary (the ``solve --json`` document)."""
+        return {
+            "riskdiet_version": self.riskdiet_version,
+            "study_name": self.study.name,
+            "input_file": self.study.source,
+            "input_sha256": self.study.source_sha256,
+            "scenarios": [s.to_dict() for s in self.scenarios],
+        }
+
+
+def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
+    """Index ranges (inclusive) of consecutive True values."""
+    padded = np.concatenate([[False], mask, [False]]).astype(np.int8)
+    edges = np.flatnonzero(np.diff(padded))
+    return [(int(a), int(b) - 1) for a, b in zip(edges[::2], edges[1::2], strict=True)]
+
+
+def _float(x: float) -> float | None:
+    x = float(x)
+    return x if np.isfinite(x) else None
+
+
+def _floats(a: np.ndarray) -> list[float]:
+    return [float(v) for v in np.asarray(a, dtype=float)]
+
+
+def policy_names(priority: np.ndarray, names: list[str]) -> list[list[str]]:
+    """Ranked prey names per level from a priority array of shape (levels, P)."""
+    out = []
+    for row in priority:
+        ranked = sorted((int(r), i) for i, r in enumerate(row) if r >= 0)
+        out.append([names[i] for _, i in ranked])
+    return out
+
+
+def solve_scenario(study: Study, scenario: Scenario) -> ScenarioResult:
+    """Solve one scenario of a study (pure function of its inputs)."""
+    predator, prey = study.inputs_for(scenario)
+    grid = make_grid(predator, prey)
+    solution = solve_grid(grid)
+    names = [p.name for p in prey]
+    reserves = np.arange(grid.n + 1) * grid.step_mj
+    return ScenarioResult(
+        name=scenario.name,
+        currency=grid.currency,
+        predator=predator,
+        prey=prey,
+        reserves_mj=reserves,
+        fitness={c: solution.fitness[k] for k, c in enumerate(CONDITIONS)},
+        fitness_at_start=solution.fitness_at_start,
+        policy={c: policy_names(solution.priority[k], names) for k, c in enumerate(CONDITIONS)},
+        marginal_hunting_ability=solution.marginal_hunting_ability,
+        elasticity=solution.elasticity,
+        residual=solution.residual,
+        iterations=solution.iterations,
+        converged=solution.converged,
+        linear_solver=solution.linear_solver,
+        grid=grid,
+        solution=solution,
+    )
+
+
+def _run_one(study: Study, scenario: Scenario) -> ScenarioResult:
+    return solve_scenario(study, scenario)
+
+
+def solve(study: Study, executor: Executor | None = None) -> StudyResult:
+    """Solve every scenario of a study.
+
+    Parameters
+    ----------
+    study : Study
+        A validated study (see :func:`riskdiet.load_study`).
+    executor : concurrent.futures.Executor, optional
+        Runs scenarios in parallel when given (processes, threads or a Dask
+        client's executor); in order in this process otherwise.
+
+    Returns
+    -------
+    StudyResult
+    """
+    if executor is None:
+        results = [_run_one(study, s) for s in study.scenarios]
+    else:
+        results = list(executor.map(_run_one, [study] * len(study.scenarios), study.scenarios))
+    return StudyResult(study, tuple(results))

@@ -1,0 +1,91 @@
+"""The one exception family of riskdiet.
+
+Every input problem carries *where* it is (a JSON path such as
+``prey[2].capture_success`` or a workbook cell such as
+``Prey!E4 (energy_mj)``), *what was expected* and *what was found*, so that a
+user can fix all of them in one pass.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One thing wrong with an input.
+
+    Attributes
+    ----------
+    where : str
+        Location of the fault, e.g. ``prey[2].capture_success``.
+    expected : str
+        What a valid value looks like, e.g. ``a number from 0 to 1``.
+    found : str
+        What was there instead, already quoted for display.
+    """
+
+    where: str
+    expected: str
+    found: str
+
+    def __str__(self) -> str:
+        return f"{self.where}: expected {self.expected}, found {self.found}"
+
+
+@dataclass(frozen=True)
+class Notice:
+    """A legal but suspicious value: reported, never fatal.
+
+    Attributes
+    ----------
+    where : str
+        Location of the value.
+    message : str
+        Plain-language explanation of why it looks suspicious.
+    """
+
+    where: str
+    message: str
+
+    def __str__(self) -> str:
+        return f"{self.where}: {self.message}"
+
+
+class RiskdietError(Exception):
+    """Base class of every error riskdiet raises on purpose."""
+
+
+class StudyError(RiskdietError):
+    """The study (or a request about it) is invalid; carries every problem found.
+
+    Parameters
+    ----------
+    problems : list of Problem
+        All problems found, in input order.
+    source : str, optional
+        File the problems were found in, for the heading.
+    """
+
+    def __init__(self, problems: list[Problem], source: str | None = None):
+        self.problems = list(problems)
+        self.source = source
+        heading = f"{len(self.problems)} problem(s)" + (f" in {source}" if source else "")
+        super().__init__(heading + ":\n" + "\n".join(f"  {p}" for p in self.problems))
+
+
+class OutputExistsError(RiskdietError):
+    """An output file already exists and overwriting was not asked for."""
+
+
+def describe(value: object) -> str:
+    """Quote a found value for an error message (strings in quotes, blanks named)."""
+    if value is None:
+        return "nothing (blank)"
+    if isinstance(value, str):
+        if value.strip() == "":
+            return "nothing (blank)"
+        return f'"{value}"'
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    return repr(value)

@@ -1,0 +1,346 @@
+"""Discretised inputs of the state-dependent model (MODEL.md section 2).
+
+Turns a predator and its prey into arrays in grid units (energy measured in
+levels of size R/n), and enumerates the outcomes of one decision step under a
+given attack policy. The solver and the Markov chain both build on these
+outcomes, so the day's process is written once.
+
+Arrays use condition as the first axis (0 = healthy, 1 = injured), then the
+living levels, then prey in listing order.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from riskdiet.model import Predator, Prey, round_half_up
+
+HEALTHY, INJURED = 0, 1
+
+
+@dataclass(frozen=True)
+class Grid:
+    """Inputs of one study in grid units.
+
+    Attributes
+    ----------
+    currency : str
+        ``breeding`` or ``season``.
+    n : int
+        Number of energy levels; level j holds reserves j R / n.
+    top : int
+        Highest value level: J (breeding, absorbing) or n (season, cap).
+    living : ndarray of int, shape (m,)
+        Living levels: 1..J-1 (breeding) or 1..n (season).
+    step_mj : float
+        Size of one level, R / n [MJ].
+    cost : ndarray, shape (2,)
+        Daily cost per condition [levels/day].
+    mortality : ndarray, shape (2,)
+        Daily background mortality per condition [1/day].
+    encounter_prob : ndarray, shape (P,)
+        Daily encounter probability p_i = 1 - exp(-m_i).
+    gain : ndarray, shape (P,)
+        Energy per capture [levels].
+    handling : ndarray, shape (P,)
+        Handling days h_i (season: rounded to whole days) [day].
+    capture : ndarray, shape (2, P)
+        Capture success per condition at the current hunting ability.
+    capture_slope : ndarray, shape (2, P)
+        Derivative of capture success with respect to hunting ability.
+    injury_chance, injury_loss, fatality : ndarray, shape (P,)
+        q_i, d_i [levels], f_i.
+    recovery : float
+        Daily recovery probability r = 1/D.
+    hunting_ability : float
+        a.
+    season_days : int
+        T (0 for the breeding currency).
+    terminal_level : int
+        Lowest level counted as success at the end of the season.
+    start_level : int
+        j0.
+    """
+
+    currency: str
+    n: int
+    top: int
+    living: np.ndarray
+    step_mj: float
+    cost: np.ndarray
+    mortality: np.ndarray
+    encounter_prob: np.ndarray
+    gain: np.ndarray
+    handling: np.ndarray
+    capture: np.ndarray
+    capture_slope: np.ndarray
+    injury_chance: np.ndarray
+    injury_loss: np.ndarray
+    fatality: np.ndarray
+    recovery: float
+    hunting_ability: float
+    season_days: int
+    terminal_level: int
+    start_level: int
+
+    @property
+    def n_prey(self) -> int:
+        return self.gain.shape[0]
+
+    @property
+    def n_living(self) -> int:
+        return self.living.shape[0]
+
+
+def capture_success(base: np.ndarray, skill: np.ndarray, ability: float,
+                    injured_factor: float) -> tuple[np.ndarray, np.ndarray]:
+    """Capture success per condition and its derivative in hunting ability.
+
+    Parameters
+    ----------
+    base : ndarray, shape (P,)
+        Capture success s_i at hunting ability 1.
+    skill : ndarray of bool, shape (P,)
+        Whether success scales with hunting ability.
+    ability : float
+        Hunting ability a.
+    injured_factor : float
+        phi, the factor on capture success while injured.
+
+    Returns
+    -------
+    success, slope : ndarray, shape (2, P)
+        s_i^k and d s_i^k / d a; the derivative of min(1, a s_i) is s_i where
+        a s_i < 1 and 0 where the cap binds (MODEL.md section 4).
+    """
+    scaled = np.minimum(1.0, ability * base)
+    healthy = np.where(skill, scaled, base)
+    slope_h = np.where(skill & (ability * base < 1.0), base, 0.0)
+    return (np.stack([healthy, injured_factor * healthy]),
+            np.stack([slope_h, injured_factor * slope_h]))
+
+
+def make_grid(predator: Predator, prey: tuple[Prey, ...]) -> Grid:
+    """Discretise a validated predator and its prey (MODEL.md section 2)."""
+    n = predator.energy_levels
+    step = predator.reserve_capacity_mj / n
+    cost = predator.effective_daily_cost_mj
+    season = predator.currency == "season"
+    top = n if season else predator.breeding_level
+    living = np.arange(1, n + 1) if season else np.arange(1, top)
+    handling = np.array([p.handling_days for p in prey], dtype=float)
+    if season:
+        handling = np.floor(handling + 0.5)
+    base = np.array([p.capture_success for p in prey], dtype=float)
+    skill = np.array([p.is_skill_dependent for p in prey], dtype=bool)
+    success, slope = capture_success(base, skill, predator.hunting_ability,
+                                     predator.injured_capture_factor)
+    return Grid(
+        currency=predator.currency,
+        n=n,
+        top=top,
+        living=living,
+        step_mj=step,
+        cost=np.array([cost, cost + predator.injured_extra_cost_mj]) / step,
+        mortality=np.array([predator.background_mortality,
+                            predator.background_mortality + predator.injured_extra_mortality]),
+        encounter_prob=np.array([p.encounter_probability(predator) for p in prey]),
+        gain=np.array([p.energy_mj for p in prey], dtype=float) / step,
+        handling=handling,
+        capture=success,
+        capture_slope=slope,
+        injury_chance=np.array([p.injury_chance for p in prey], dtype=float),
+        injury_loss=np.array([p.injury_energy_mj for p in prey], dtype=float) / step,
+        fatality=np.array([p.fatality_chance for p in prey], dtype=float),
+        recovery=predator.recovery_chance_per_day,
+        hunting_ability=predator.hunting_ability,
+        season_days=int(predator.season_days or 0) if season else 0,
+        terminal_level=max(1, round_half_up(predator.season_reserve_threshold * n)),
+        start_level=predator.start_level,
+    )
+
+
+@dataclass(frozen=True)
+class Split:
+    """Where a fractional reserve y lands: weight 1-w on level L, w on L+1."""
+
+    low: np.ndarray
+    weight: np.ndarray
+
+    def value(self, v: np.ndarray) -> np.ndarray:
+        """Interpolate a value row ``v`` (levels 0..top) at the split points."""
+        return (1.0 - self.weight) * v[self.low] + self.weight * v[self.low + 1]
+
+
+def split(y: np.ndarray, top: int) -> Split:
+    """Split fractional levels y between neighbouring grid levels.
+
+    y <= 0 lands on level 0 (death) and y >= top on level ``top`` (breeding, or
+    the cap of the season currency), as MODEL.md section 2 step 5 states.
+    """
+    yc = np.clip(y, 0.0, float(top))
+    low = np.minimum(np.floor(yc).astype(np.intp), top - 1)
+    return Split(low, yc - low)
+
+
+@dataclass(frozen=True)
+class Targets:
+    """Reserves after each outcome, from every living state (fixed per grid).
+
+    Attributes
+    ----------
+    stay : Split, shape (2, m)
+        No attack or an attack that fails without injury: y = j - c_k.
+    capture : Split, shape (2, m, P)
+        y = j + e_i - c_k (1 + h_i).
+    injury : Split, shape (2, m, P)
+        y = j - c_k - d_i.
+    recover_stay, recover_capture : ndarray
+        Recovery chance of an injured predator over a 1-day step, shape (),
+        and over a 1 + h_i day capture step, shape (P,).
+    survive_handling : ndarray, shape (2, P)
+        (1 - mu_k)^h_i.
+    """
+
+    stay: Split
+    capture: Split
+    injury: Split
+    recover_stay: float
+    recover_capture: np.ndarray
+    survive_handling: np.ndarray
+
+
+def targets(grid: Grid) -> Targets:
+    """Compute the outcome reserves of one step for every living state."""
+    j = grid.living.astype(float)[None, :, None]
+    c = grid.cost[:, None, None]
+    y_stay = j[..., 0] - grid.cost[:, None]
+    y_cap = j + grid.gain - c * (1.0 + grid.handling)
+    y_inj = j - c - grid.injury_loss
+    r = grid.recovery
+    return Targets(
+        stay=split(y_stay, grid.top),
+        capture=split(y_cap, grid.top),
+        injury=split(y_inj, grid.top),
+        recover_stay=r,
+        recover_capture=1.0 - (1.0 - r) ** (1.0 + grid.handling),
+        survive_handling=(1.0 - grid.mortality[:, None]) ** grid.handling[None, :],
+    )
+
+
+def attack_probabilities(encounter_prob: np.ndarray, priority: np.ndarray) -> np.ndarray:
+    """Chance that each prey is the one attacked, under a ranked attack set.
+
+    Parameters
+    ----------
+    encounter_prob : ndarray, shape (P,)
+        p_i.
+    priority : ndarray of int, shape (..., P)
+        Rank of prey i in the attack set (0 = best), or -1 when ignored.
+
+    Returns
+    -------
+    ndarray, shape (..., P)
+        P_i = p_i prod_{l ranked above i} (1 - p_l) for attacked prey, else 0
+        (MODEL.md section 3).
+    """
+    n_prey = encounter_prob.shape[0]
+    attacked = priority >= 0
+    # order prey by rank; ignored prey go last and contribute a factor of 1
+    key = np.where(attacked, priority, n_prey)
+    order = np.argsort(key, axis=-1, kind="stable")
+    p_sorted = np.where(np.take_along_axis(attacked, order, -1), encounter_prob[order], 0.0)
+    survive = np.cumprod(1.0 - p_sorted, axis=-1)
+    before = np.concatenate([np.ones_like(survive[..., :1]), survive[..., :-1]], axis=-1)
+    out = np.empty_like(p_sorted)
+    np.put_along_axis(out, order, p_sorted * before, -1)
+    return out
+
+
+def rank_attacks(value: np.ndarray, ignore: np.ndarray) -> np.ndarray:
+    """Ranked attack set from attack values (MODEL.md section 3 tie rules).
+
+    Parameters
+    ----------
+    value : ndarray, shape (..., P)
+        Attack values A_i.
+    ignore : ndarray, shape (...)
+        Value of ignoring, G.
+
+    Returns
+    -------
+    ndarray of int, shape (..., P)
+        Rank of each prey worth attacking (0 = best; equal values go to the prey
+        listed first), or -1 when A_i <= G + 1e-12 max(1, G).
+    """
+    worth = value > (ignore + 1e-12 * np.maximum(1.0, ignore))[..., None]
+    key = np.where(worth, -value, np.inf)
+    order = np.argsort(key, axis=-1, kind="stable")
+    ranks = np.empty_like(order)
+    np.put_along_axis(ranks, order, np.broadcast_to(np.arange(order.shape[-1]), order.shape), -1)
+    return np.where(worth, ranks, -1)
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """One kind of outcome of a decision step, from every living state.
+
+    Attributes
+    ----------
+    prob : ndarray, shape (2, m, X)
+        Probability of the outcome from each state (death and its other causes
+        are what the outcomes of a state leave out).
+    split : Split, shape (2, m, X)
+        Reserve level reached.
+    healthy_share : ndarray, shape (2, m, X)
+        Chance that the predator is healthy after the outcome.
+    prey : ndarray of int, shape (X,)
+        Prey involved (-1 for a day without capture or injury).
+    captured : bool
+        Whether the outcome is a kill.
+    days : ndarray, shape (X,)
+        Length of the step [day].
+    """
+
+    prob: np.ndarray
+    split: Split
+    healthy_share: np.ndarray
+    prey: np.ndarray
+    captured: bool
+    days: np.ndarray
+
+
+def outcomes(grid: Grid, tg: Targets, attack_prob: np.ndarray) -> list[Outcome]:
+    """Outcomes of one step under a policy (MODEL.md section 2, steps 1-4).
+
+    Parameters
+    ----------
+    attack_prob : ndarray, shape (2, m, P)
+        Chance that each prey is the one attacked, from each living state.
+
+    Returns
+    -------
+    list of Outcome
+        The quiet day (no attack, or a failed attack without injury), the
+        captures and the injuries.
+    """
+    alive = (1.0 - grid.mortality)[:, None, None]
+    s = grid.capture[:, None, :]
+    q, f = grid.injury_chance, grid.fatality
+    quiet_attacks = (attack_prob * (1 - f) * (1 - s) * (1 - q)).sum(-1, keepdims=True)
+    quiet = alive * (1.0 - attack_prob.sum(-1, keepdims=True) + quiet_attacks)
+    m, n_prey = grid.n_living, grid.n_prey
+    healthy_quiet = np.empty((2, m, 1))
+    healthy_quiet[0], healthy_quiet[1] = 1.0, tg.recover_stay
+    healthy_capture = np.empty((2, m, n_prey))
+    healthy_capture[0], healthy_capture[1] = 1.0, tg.recover_capture
+    stay = Split(tg.stay.low[..., None], tg.stay.weight[..., None])
+    return [
+        Outcome(quiet, stay, healthy_quiet, np.array([-1]), False, np.array([1.0])),
+        Outcome(alive * attack_prob * (1 - f) * s * tg.survive_handling[:, None, :],
+                tg.capture, healthy_capture, np.arange(n_prey), True, 1.0 + grid.handling),
+        Outcome(alive * attack_prob * (1 - f) * (1 - s) * q, tg.injury,
+                np.zeros((2, m, n_prey)), np.arange(n_prey), False, np.ones(n_prey)),
+    ]

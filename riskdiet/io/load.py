@@ -1,0 +1,61 @@
+"""Open a study file of any accepted kind."""
+
+from __future__ import annotations
+
+import hashlib
+from pathlib import Path
+
+from riskdiet.errors import Problem, StudyError
+from riskdiet.model import Study
+
+ACCEPTED = ".xlsx (Excel workbook) or .json (riskdiet study file)"
+_MISTAKES = {
+    ".xls": "an old-style Excel file",
+    ".ods": "an OpenDocument spreadsheet",
+    ".csv": "a CSV text file",
+    ".xlsm": "a macro-enabled workbook",
+}
+
+
+def file_sha256(path: Path) -> str:
+    """SHA-256 of a file's bytes, hex."""
+    digest = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 16), b""):
+            digest.update(block)
+    return digest.hexdigest()
+
+
+def load_study(path: str | Path) -> Study:
+    """Read, validate and build a study from a ``.json`` or ``.xlsx`` file.
+
+    Parameters
+    ----------
+    path : str or Path
+        Study file. The file is only read, never modified.
+
+    Raises
+    ------
+    StudyError
+        When the file is missing, of a kind not accepted, or invalid; every
+        problem names its location.
+    """
+    path = Path(path)
+    name = str(path)
+    suffix = path.suffix.lower()
+    if not path.exists():
+        raise StudyError([Problem(name, "an existing study file", "no such file")])
+    if path.is_dir():
+        raise StudyError([Problem(name, "a study file", "a folder")])
+    if suffix in _MISTAKES:
+        raise StudyError([Problem(name, f"{ACCEPTED}; save the file as .xlsx in your "
+                                  "spreadsheet program", _MISTAKES[suffix])])
+    if suffix == ".json":
+        from riskdiet.io.json_study import read_json_study
+
+        return read_json_study(path)
+    if suffix == ".xlsx":
+        from riskdiet.io.workbook import read_workbook_study
+
+        return read_workbook_study(path)
+    raise StudyError([Problem(name, ACCEPTED, f'a file ending in "{suffix or "(nothing)"}"')])

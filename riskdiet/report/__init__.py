@@ -1,0 +1,1 @@
+"""Formatting results for people: plain text, figures and the PDF brief."""
