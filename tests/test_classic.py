@@ -386,6 +386,32 @@ def test_heuristic_on_small_cases_bounded_by_enumeration(study):
 
 
 @pytest.mark.parametrize("exact_limit", [16, 0])
+def test_only_a_mixed_diet_pays_the_cost(exact_limit):
+    """Two prey that each fall short of the daily cost but together exceed it
+    (Holling 1959 disc equation), so Gilliam's rule (Werner & Gilliam 1984) has a
+    single candidate; the local search must find it from the rate-maximising
+    diet since no single prey type is a valid start. Hand-worked: e = 3 MJ,
+    h = 1 day, lambda = 0.45/day, s = 1 each, c = 1 MJ/day:
+    R({a}) = 1.35/1.45 = 0.93 < 1, R({a, b}) = 2.7/1.9 = 1.42 > 1."""
+    result = classic_prey_model(
+        ["a", "b"],
+        [0.45, 0.45],
+        [3.0, 3.0],
+        [1.0, 1.0],
+        [1.0, 1.0],
+        [0.0, 0.01],
+        0.001,
+        1.0,
+        exact_limit=exact_limit,
+    )
+    assert result.rate_maximizing_diet == ("a", "b")
+    assert result.risk_adjusted_diet == ("a", "b")
+    assert result.risk_adjusted_net_gain_mj_per_day == pytest.approx(2.7 / 1.9 - 1.0, rel=1e-14)
+    # mu(D) = 0.001 + 0.45*0.01 / 1.9
+    assert result.risk_adjusted_mortality_per_day == pytest.approx(0.001 + 0.0045 / 1.9, rel=1e-14)
+
+
+@pytest.mark.parametrize("exact_limit", [16, 0])
 @pytest.mark.parametrize("cost", [1.0, 1.5])
 def test_no_diet_meets_daily_cost(cost, exact_limit):
     """When no diet's Holling (1959) rate exceeds the daily cost, Gilliam's rule
