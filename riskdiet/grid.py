@@ -62,6 +62,9 @@ class Grid:
         Lowest level counted as success at the end of the season.
     start_level : int
         j0.
+    after_breeding_level : int
+        round(rho n) clipped to the living levels, where a breeding event
+        continues (MODEL.md section 5).
     """
 
     currency: str
@@ -84,6 +87,7 @@ class Grid:
     season_days: int
     terminal_level: int
     start_level: int
+    after_breeding_level: int
 
     @property
     def n_prey(self) -> int:
@@ -159,6 +163,7 @@ def make_grid(predator: Predator, prey: tuple[Prey, ...]) -> Grid:
         season_days=int(predator.season_days or 0) if season else 0,
         terminal_level=max(1, round_half_up(predator.season_reserve_threshold * n)),
         start_level=predator.start_level,
+        after_breeding_level=predator.after_breeding_level,
     )
 
 

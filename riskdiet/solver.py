@@ -31,6 +31,7 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.linalg import bicgstab, splu
 
+from riskdiet.errors import RiskdietError
 from riskdiet.grid import (
     Grid,
     Outcome,
@@ -49,6 +50,18 @@ SOLVE_TOLERANCE = 1e-13
 """Largest accepted residual |(I - P) x - b| of an iterative solve, relative to |b|."""
 
 
+def _factorise(matrix: sp.csr_matrix):
+    """Sparse LU of I - P, or a clear error when some policy never ends."""
+    try:
+        return splu(matrix.tocsc(), permc_spec="MMD_AT_PLUS_A")
+    except RuntimeError:
+        raise RiskdietError(
+            "the predator's reserves can cycle for ever without death or breeding under some "
+            "attack policy (I - P is singular); this happens when a prey is met on every "
+            "day (encounters_per_day above about 35) and its captures exactly balance the "
+            "daily cost. Lower the encounter rate or change the energy values.") from None
+
+
 class LinearSolve:
     """Solves (I - P) x = b for one policy, exactly to rounding.
 
@@ -65,7 +78,7 @@ class LinearSolve:
         self.lu = None
         self.method = "sparse LU"
         if matrix.shape[0] <= DIRECT_LIMIT:
-            self.lu = splu(matrix.tocsc(), permc_spec="MMD_AT_PLUS_A")
+            self.lu = _factorise(matrix)
 
     def __call__(self, rhs: np.ndarray, guess: np.ndarray | None = None) -> np.ndarray:
         if self.lu is None:
@@ -75,7 +88,7 @@ class LinearSolve:
             if info == 0 and np.abs(self.matrix @ x - rhs).max() <= SOLVE_TOLERANCE * scale:
                 self.method = "BiCGSTAB (residual-checked)"
                 return x
-            self.lu = splu(self.matrix.tocsc(), permc_spec="MMD_AT_PLUS_A")
+            self.lu = _factorise(self.matrix)
             self.method = "sparse LU"
         return self.lu.solve(rhs)
 

@@ -1,0 +1,569 @@
+"""What the predator kills: the Markov chain under the optimal policy (MODEL.md section 5).
+
+The optimal policy of :mod:`riskdiet.solver` turns the day's process into a
+Markov chain on the living states (level, condition). This module reads kill
+rates, survival and lifetimes off that chain exactly (linear solves, no
+simulation):
+
+* breeding currency: the long-run state of a lineage in which a death is
+  replaced by a newcomer at (j0, healthy) and a breeding event continues at
+  (round(rho n), healthy), plus the fundamental-matrix quantities of one
+  newcomer's life (:func:`steady_state`);
+* season currency: the distribution of states pushed forward day by day from
+  (j0, healthy) under the policy of each day (:func:`season_outlook`).
+
+The transitions themselves come from :func:`riskdiet.grid.outcomes` and
+:func:`riskdiet.solver.transition_matrix`, the same code the solver uses, so
+the chain and the fitness values describe one process. Only the split of the
+deaths into causes and the kill counts are computed here.
+
+States are ordered condition-major, index k m + (j - 1), as in
+:func:`riskdiet.solver.transition_matrix`.
+
+References
+----------
+.. [1] Kemeny, J. G. & Snell, J. L. (1960). Finite Markov Chains. Van
+   Nostrand (absorbing chains, the fundamental matrix).
+.. [2] Grinstead, C. M. & Snell, J. L. (1997). Introduction to Probability,
+   2nd ed. American Mathematical Society, ch. 11.
+.. [3] Ross, S. M. (1996). Stochastic Processes, 2nd ed. Wiley, ch. 3
+   (renewal-reward processes).
+.. [4] Houston, A. I. & McNamara, J. M. (1999). Models of Adaptive Behaviour:
+   An Approach Based on State. Cambridge University Press.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import breadth_first_order
+from scipy.sparse.linalg import splu
+
+from riskdiet.errors import RiskdietError
+from riskdiet.grid import Grid, Outcome, Targets, attack_probabilities, outcomes, targets
+from riskdiet.solver import LinearSolve, Solution, transition_matrix
+
+DEATH_CAUSES = ("starvation", "attack", "other")
+"""Order of the death causes in :attr:`ChainStep.deaths`."""
+
+NEGATIVE_TOLERANCE = 1e-9
+"""Largest negative expected visit count (relative to the largest) put down to rounding."""
+
+
+# ---------------------------------------------------------------------------
+# one step of the chain
+
+
+@dataclass(frozen=True)
+class ChainStep:
+    """One decision step under a fixed policy, from every living state.
+
+    Attributes
+    ----------
+    transitions : csr_matrix, shape (2m, 2m)
+        Transition probabilities between living states.
+    breed : ndarray, shape (2m,)
+        Chance of reaching breeding condition in the step (breeding currency).
+    deaths : ndarray, shape (3, 2m)
+        Chance of dying in the step of starvation (reserves reaching level 0,
+        including the interpolation weight on level 0), of an attack (f_i) and
+        of other causes (background mortality at the start of the step and
+        during handling, the injured extra mortality included).
+    kill_prob : ndarray, shape (2m, P)
+        P(kill i | s): the step starts with a capture of prey i. A kill counts
+        at capture, before the handling days are survived.
+    days : ndarray, shape (2m,)
+        Expected length of the step, E[days | s] = 1 + sum_i P(kill i | s) h_i
+        [day].
+
+    Notes
+    -----
+    For every state, transitions (row sum) + breed + the three death causes
+    add up to 1.
+    """
+
+    transitions: sp.csr_matrix
+    breed: np.ndarray
+    deaths: np.ndarray
+    kill_prob: np.ndarray
+    days: np.ndarray
+
+
+def kill_probabilities(grid: Grid, attack_prob: np.ndarray) -> np.ndarray:
+    """Chance that a step from each state starts with a kill of each prey.
+
+    Parameters
+    ----------
+    grid : Grid
+    attack_prob : ndarray, shape (2, m, P)
+        P_i, the chance that prey i is the one attacked (zero if ignored).
+
+    Returns
+    -------
+    ndarray, shape (2, m, P)
+        (1 - mu_k) P_i (1 - f_i) s_i^k (MODEL.md section 5).
+    """
+    alive = (1.0 - grid.mortality)[:, None, None]
+    return alive * attack_prob * (1.0 - grid.fatality) * grid.capture[:, None, :]
+
+
+def death_probabilities(grid: Grid, tg: Targets, attack_prob: np.ndarray,
+                        parts: list[Outcome]) -> np.ndarray:
+    """Chance of dying in one step, by cause, from every living state.
+
+    Parameters
+    ----------
+    grid : Grid
+    tg : Targets
+        Outcome reserves of the grid.
+    attack_prob : ndarray, shape (2, m, P)
+        P_i under the policy.
+    parts : list of Outcome
+        The step's outcomes under the same policy (:func:`riskdiet.grid.outcomes`).
+
+    Returns
+    -------
+    ndarray, shape (3, 2, m)
+        Starvation (outcome mass landing on level 0), attack
+        ((1 - mu_k) sum_i P_i f_i) and other causes
+        (mu_k + (1 - mu_k) sum_i P_i (1 - f_i) s_i^k (1 - (1 - mu_k)^h_i)).
+    """
+    starvation = np.zeros(attack_prob.shape[:2])
+    for o in parts:
+        on_zero = (o.split.low == 0) * (1.0 - o.split.weight)
+        starvation += (o.prob * on_zero).sum(-1)
+    alive = (1.0 - grid.mortality)[:, None]
+    attack = alive * (attack_prob * grid.fatality).sum(-1)
+    handling_death = (kill_probabilities(grid, attack_prob)
+                      * (1.0 - tg.survive_handling[:, None, :])).sum(-1)
+    other = grid.mortality[:, None] + handling_death
+    return np.stack([starvation, attack, other])
+
+
+def chain_step(grid: Grid, priority: np.ndarray, tg: Targets | None = None) -> ChainStep:
+    """The chain's step under a ranked attack policy.
+
+    Parameters
+    ----------
+    grid : Grid
+    priority : ndarray of int, shape (2, m, P)
+        Rank of each prey in the attack set at each living state, -1 if
+        ignored (:meth:`riskdiet.solver.Solution.living_priority`).
+    tg : Targets, optional
+        Outcome reserves, when already computed.
+
+    Returns
+    -------
+    ChainStep
+    """
+    tg = targets(grid) if tg is None else tg
+    attack_prob = attack_probabilities(grid.encounter_prob, priority)
+    parts = outcomes(grid, tg, attack_prob)
+    matrix, breed = transition_matrix(grid, parts)
+    kill = kill_probabilities(grid, attack_prob).reshape(-1, grid.n_prey)
+    deaths = death_probabilities(grid, tg, attack_prob, parts).reshape(3, -1)
+    return ChainStep(matrix, breed, deaths, kill, 1.0 + kill @ grid.handling)
+
+
+# ---------------------------------------------------------------------------
+# absorbing chains
+
+
+@dataclass(frozen=True)
+class AbsorbingSummary:
+    """Fundamental-matrix quantities of an absorbing Markov chain.
+
+    Attributes
+    ----------
+    visits : ndarray, shape (t,) or (t, t)
+        Expected visits to each transient state: the start's row of
+        N = (I - Q)^-1, or all of N when no start was given.
+    time : float or ndarray, shape (t,)
+        Expected time to absorption, N d (d = time per visit; steps when d = 1).
+    absorption : ndarray, shape (r,) or (t, r)
+        Absorption probabilities B = N R.
+    """
+
+    visits: np.ndarray
+    time: float | np.ndarray
+    absorption: np.ndarray
+
+
+def absorbing_summary(transient: sp.spmatrix | np.ndarray, absorbing: np.ndarray,
+                      start: int | None = None, duration: np.ndarray | None = None
+                      ) -> AbsorbingSummary:
+    """Expected visits, time to absorption and absorption probabilities.
+
+    Parameters
+    ----------
+    transient : sparse matrix or ndarray, shape (t, t)
+        Q, transitions among transient states.
+    absorbing : ndarray, shape (t, r)
+        R, transitions from transient to absorbing states.
+    start : int, optional
+        Starting state. When given, only its row of N is computed, by one
+        sparse solve of (I - Q)^T x = e_start; otherwise N is formed in full
+        (small chains only).
+    duration : ndarray, shape (t,), optional
+        Time spent per visit to each state (default 1: time counts steps).
+
+    Returns
+    -------
+    AbsorbingSummary
+
+    Notes
+    -----
+    N = (I - Q)^-1 holds the expected visits, t = N 1 the expected steps before
+    absorption and B = N R the absorption probabilities [1]_, [2]_. Q must be
+    transient (every state reaches absorption); see :func:`always_absorbed`.
+
+    References
+    ----------
+    .. [1] Kemeny, J. G. & Snell, J. L. (1960). Finite Markov Chains. Van
+       Nostrand, ch. III.
+    .. [2] Grinstead, C. M. & Snell, J. L. (1997). Introduction to
+       Probability, 2nd ed. AMS, ch. 11, section 11.2.
+    """
+    q = sp.csr_matrix(transient, dtype=float)
+    size = q.shape[0]
+    r = np.asarray(absorbing, dtype=float).reshape(size, -1)
+    d = np.ones(size) if duration is None else np.asarray(duration, dtype=float)
+    system = sp.identity(size, format="csr") - q
+    if start is None:
+        fundamental = splu(system.tocsc()).solve(np.eye(size))
+        return AbsorbingSummary(fundamental, fundamental @ d, fundamental @ r)
+    unit = np.zeros(size)
+    unit[start] = 1.0
+    row = LinearSolve(system.T.tocsr())(unit)
+    return AbsorbingSummary(row, float(row @ d), row @ r)
+
+
+def always_absorbed(transient: sp.spmatrix, exits: np.ndarray, start: int) -> bool:
+    """Whether every state reachable from ``start`` can still reach an exit.
+
+    Parameters
+    ----------
+    transient : sparse matrix, shape (t, t)
+        Q; only which entries are positive matters.
+    exits : ndarray, shape (t,)
+        Chance of leaving to the absorbing states from each state.
+    start : int
+        Starting state.
+
+    Returns
+    -------
+    bool
+        True when absorption is certain from ``start`` (the restriction of Q to
+        the states reachable from it is transient, so I - Q is invertible
+        there); False when the chain can stay among transient states forever.
+        Decided on the graph of positive entries, so a tiny but positive exit
+        chance still counts as an exit.
+    """
+    graph = sp.csr_matrix(transient, dtype=float)
+    graph.data = (graph.data > 0).astype(float)
+    graph.eliminate_zeros()
+    size = graph.shape[0]
+    ahead = breadth_first_order(graph, start, directed=True, return_predecessors=False)
+    # search backwards from a sink linked to every exit state
+    back = graph.T.tocoo()
+    out = np.flatnonzero(np.asarray(exits) > 0)
+    rows = np.concatenate([back.row, np.full(out.size, size)])
+    cols = np.concatenate([back.col, out])
+    reverse = sp.csr_matrix((np.ones(rows.size), (rows, cols)), shape=(size + 1, size + 1))
+    behind = breadth_first_order(reverse, size, directed=True, return_predecessors=False)
+    reaches_exit = np.zeros(size + 1, dtype=bool)
+    reaches_exit[behind] = True
+    return bool(reaches_exit[ahead].all())
+
+
+def _distribution(visits: np.ndarray) -> np.ndarray:
+    """Normalise expected visits into a distribution, checking their sign."""
+    top = float(visits.max())
+    if not np.all(np.isfinite(visits)) or top <= 0 or visits.min() < -NEGATIVE_TOLERANCE * top:
+        raise RiskdietError("the chain's expected visits are not a valid distribution "
+                            f"(smallest {visits.min():.3g}, largest {top:.3g}); the linear "
+                            "solve has failed")
+    pi = np.clip(visits, 0.0, None)
+    return pi / pi.sum()
+
+
+# ---------------------------------------------------------------------------
+# breeding currency
+
+
+@dataclass(frozen=True)
+class SteadyState:
+    """Long-run kills and life history under the breeding-currency policy.
+
+    Long-run quantities refer to a lineage: a death is replaced by a newcomer
+    at (j0, healthy) and a breeding event continues at (j_rho, healthy),
+    j_rho = round(rho n) clipped to the living levels. Time averages weight
+    each decision step by its expected length E[days | s]; the condition and
+    reserves at the start of a step count for the whole step.
+
+    Attributes
+    ----------
+    kills_per_day : ndarray, shape (P,)
+        K_i = sum pi P(kill i | .) / sum pi E[days | .], kills of each prey per
+        predator per day [1/day].
+    share_of_time_injured : float
+        Share of days spent injured.
+    mean_reserves_levels : float
+        Time-weighted mean reserve level [levels].
+    daily_survival : float
+        1 - deaths per predator-day, i.e. 1 - (sum pi P(death | .)) /
+        (sum pi E[days | .]).
+    expected_lifetime_days : float
+        Expected days lived by a newcomer at (j0, healthy), breeding events
+        continuing at (j_rho, healthy): N row of the start times E[days | s];
+        the step in which it dies counts in full. ``math.inf`` when it can live
+        forever (some state it can reach cannot lead to death).
+    expected_breeding_events : float
+        Expected breeding events over a newcomer's life (``math.inf`` as above).
+    first_breeding_probability : float
+        Chance that a newcomer reaches breeding condition before dying; equals
+        the breeding-currency fitness V(j0, healthy).
+    death_before_breeding : dict of str to float
+        Chance that a newcomer dies of ``starvation``, an ``attack`` or
+        ``other`` causes before its first breeding; the three and
+        ``first_breeding_probability`` add up to 1.
+    stationary : ndarray, shape (2, m)
+        Stationary distribution pi per decision step over living states.
+    kill_prob : ndarray, shape (2, m, P)
+        P(kill i | s).
+    days_per_step : ndarray, shape (2, m)
+        E[days | s] [day].
+    """
+
+    kills_per_day: np.ndarray
+    share_of_time_injured: float
+    mean_reserves_levels: float
+    daily_survival: float
+    expected_lifetime_days: float
+    expected_breeding_events: float
+    first_breeding_probability: float
+    death_before_breeding: dict[str, float]
+    stationary: np.ndarray
+    kill_prob: np.ndarray
+    days_per_step: np.ndarray
+
+
+def steady_state(grid: Grid, solution: Solution) -> SteadyState:
+    """Kill rates and life history of the breeding-currency chain.
+
+    Parameters
+    ----------
+    grid : Grid
+        Discretised study, breeding currency.
+    solution : Solution
+        Its optimal policy (:func:`riskdiet.solver.solve_breeding`).
+
+    Returns
+    -------
+    SteadyState
+
+    Notes
+    -----
+    With deaths absorbing and breeding continuing at (j_rho, healthy), the
+    newcomer's chain has transient part Q = P + b e_rho^T (P the transitions
+    among living states, b the breeding chance). Its life is one cycle of the
+    lineage, which restarts at (j0, healthy) at each death; by the
+    renewal-reward theorem [3]_ the stationary distribution per step is the
+    newcomer's expected visits normalised, pi = N[j0] / sum N[j0], and
+    K_i = N[j0] P(kill i | .) / N[j0] E[days | .] [1]_, [2]_. This equals the
+    solution of pi M = pi, sum pi = 1 for the chain M with both resets.
+
+    When a newcomer can live forever, it does so after a breeding event (every
+    path ends in death or breeding, since c > 0); the long run then repeats the
+    cycles from (j_rho, healthy) to the next breeding event, and pi is the
+    normalised visits of that cycle under P. Lifetime and breeding events are
+    then infinite.
+
+    The first breeding and the causes of death before it are the absorption
+    probabilities of P with breeding and the three death causes as absorbing
+    states.
+
+    References
+    ----------
+    .. [1] Kemeny, J. G. & Snell, J. L. (1960). Finite Markov Chains. Van
+       Nostrand.
+    .. [2] Grinstead, C. M. & Snell, J. L. (1997). Introduction to
+       Probability, 2nd ed. AMS, ch. 11.
+    .. [3] Ross, S. M. (1996). Stochastic Processes, 2nd ed. Wiley, ch. 3.
+    """
+    if grid.currency != "breeding":
+        raise RiskdietError(f"steady_state needs the breeding currency, found {grid.currency!r}")
+    m, size = grid.n_living, 2 * grid.n_living
+    step = chain_step(grid, solution.living_priority(grid))
+    start = grid.start_level - 1
+    restart = grid.after_breeding_level - 1
+    death = step.deaths.sum(0)
+
+    first = absorbing_summary(step.transitions, np.column_stack([step.breed, step.deaths.T]),
+                              start, step.days)
+    bred = np.flatnonzero(step.breed > 0)
+    reset = sp.csr_matrix((step.breed[bred], (bred, np.full(bred.size, restart))),
+                          shape=(size, size))
+    life_chain = (step.transitions + reset).tocsr()
+    if always_absorbed(life_chain, death, start):
+        life = absorbing_summary(life_chain, death, start, step.days)
+        visits = life.visits
+        lifetime = life.time
+        breeding_events = float(visits @ step.breed)
+    else:
+        visits = absorbing_summary(step.transitions, step.breed, restart).visits
+        lifetime = breeding_events = math.inf
+    pi = _distribution(visits)
+    mean_days = float(pi @ step.days)
+    time_share = pi * step.days / mean_days
+    levels = np.tile(grid.living, 2).astype(float)
+    return SteadyState(
+        kills_per_day=pi @ step.kill_prob / mean_days,
+        share_of_time_injured=float(time_share[m:].sum()),
+        mean_reserves_levels=float(time_share @ levels),
+        daily_survival=float(1.0 - (pi @ death) / mean_days),
+        expected_lifetime_days=float(lifetime),
+        expected_breeding_events=breeding_events,
+        first_breeding_probability=float(first.absorption[0]),
+        death_before_breeding={c: float(p) for c, p in zip(DEATH_CAUSES, first.absorption[1:],
+                                                            strict=True)},
+        stationary=pi.reshape(2, m),
+        kill_prob=step.kill_prob.reshape(2, m, grid.n_prey),
+        days_per_step=step.days.reshape(2, m),
+    )
+
+
+# ---------------------------------------------------------------------------
+# season currency
+
+
+@dataclass(frozen=True)
+class SeasonOutlook:
+    """What a newcomer kills over the season and how it fares.
+
+    Conventions: every predator starts at (j0, healthy) on day 0. A step
+    started on day t < T lasts 1 day, or 1 + H_i days after a capture of prey
+    i, and ends on day min(t + 1 + H_i, T); a step that would end after T is
+    judged at T with the reserves and survival of the whole step, as the
+    solver's terminal value is (MODEL.md section 3). A predator that dies in
+    a step (of any cause: background or handling mortality, an attack, or
+    starvation at the end of the step) is dead from the day after the step
+    began. One in the middle of a handling step that it will survive counts as
+    alive on the days in between, at the reserve level it will end the step
+    with.
+
+    Attributes
+    ----------
+    expected_kills : ndarray, shape (P,)
+        Expected kills of each prey per predator over the season (a kill
+        started on a day t < T counts, at capture).
+    survival_to_end : float
+        P(alive on day T).
+    chance_above_threshold : float
+        P(alive on day T with level >= ``grid.terminal_level``), interpolation
+        weights included; equals the season fitness V_0(j0, healthy).
+    survival_by_day : ndarray, shape (T + 1,)
+        P(alive on day t), t = 0..T.
+    mean_reserves_by_day : ndarray, shape (T + 1,)
+        Mean reserve level of the living on day t [levels]; NaN when none is alive.
+    kills_by_day : ndarray, shape (T, P)
+        Expected kills started on day t.
+    """
+
+    expected_kills: np.ndarray
+    survival_to_end: float
+    chance_above_threshold: float
+    survival_by_day: np.ndarray
+    mean_reserves_by_day: np.ndarray
+    kills_by_day: np.ndarray
+
+
+def _moves_by_length(grid: Grid, tg: Targets, priority: np.ndarray
+                     ) -> tuple[np.ndarray, list[tuple[int, sp.csr_matrix]]]:
+    """Kill chances and the transposed transitions of one day, by step length."""
+    attack_prob = attack_probabilities(grid.encounter_prob, priority)
+    parts = outcomes(grid, tg, attack_prob)
+    lengths = np.unique(np.concatenate([o.days for o in parts]))
+    moves = []
+    for length in lengths:
+        pieces = [dataclasses.replace(o, prob=o.prob * (o.days == length)) for o in parts
+                  if np.any(o.days == length)]
+        matrix, _ = transition_matrix(grid, pieces)
+        moves.append((round(float(length)), matrix.T.tocsr()))
+    return kill_probabilities(grid, attack_prob).reshape(-1, grid.n_prey), moves
+
+
+def season_outlook(grid: Grid, solution: Solution) -> SeasonOutlook:
+    """Forward propagation of the season-currency chain from (j0, healthy).
+
+    Parameters
+    ----------
+    grid : Grid
+        Discretised study, season currency.
+    solution : Solution
+        Its day-by-day policy (:func:`riskdiet.solver.solve_season`).
+
+    Returns
+    -------
+    SeasonOutlook
+
+    Notes
+    -----
+    The distribution of predators at decision points, a_t over the living
+    states, starts as the unit mass at (j0, healthy). The mass of day t moves
+    with the transitions of the day-t policy to day t + 1 (one-day steps) or
+    min(t + 1 + H_i, T) (captures), so a_T F is the dual of the solver's
+    backward induction and reproduces V_0(j0, healthy) [4]_.
+
+    References
+    ----------
+    .. [4] Houston, A. I. & McNamara, J. M. (1999). Models of Adaptive
+       Behaviour. Cambridge University Press.
+    """
+    if grid.currency != "season" or solution.priority_by_day is None:
+        raise RiskdietError("season_outlook needs the season currency and its day-by-day "
+                            f"policy, found currency {grid.currency!r}")
+    days, m, n_prey = grid.season_days, grid.n_living, grid.n_prey
+    tg = targets(grid)
+    levels = np.tile(grid.living, 2).astype(float)
+    arrivals = np.zeros((days + 1, 2 * m))
+    arrivals[0, grid.start_level - 1] = 1.0
+    # in-transit mass and level sums as difference arrays over days
+    transit = np.zeros((2, days + 1))
+    kills_by_day = np.zeros((days, n_prey))
+    policy = None
+    for t in range(days):
+        today = solution.living_priority(grid, t)
+        if policy is None or not np.array_equal(today, policy):
+            policy = today
+            kill, moves = _moves_by_length(grid, tg, today)
+        mass = arrivals[t]
+        if not mass.any():
+            continue
+        kills_by_day[t] = mass @ kill
+        for length, moves_t in moves:
+            flow = moves_t @ mass
+            end = min(t + length, days)
+            arrivals[end] += flow
+            if end > t + 1:
+                carried = np.array([flow.sum(), flow @ levels])
+                transit[:, t + 1] += carried
+                transit[:, end] -= carried
+    transit = np.cumsum(transit, axis=1)
+    alive = arrivals.sum(1) + transit[0]
+    level_sum = arrivals @ levels + transit[1]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean_levels = np.where(alive > 0, level_sum / np.where(alive > 0, alive, 1.0), np.nan)
+    final = arrivals[days]
+    return SeasonOutlook(
+        expected_kills=kills_by_day.sum(0),
+        survival_to_end=float(final.sum()),
+        chance_above_threshold=float(final @ (levels >= grid.terminal_level)),
+        survival_by_day=alive,
+        mean_reserves_by_day=mean_levels,
+        kills_by_day=kills_by_day,
+    )

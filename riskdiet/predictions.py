@@ -1,0 +1,186 @@
+"""What gets killed: kill predictions with names, per predator and population.
+
+Turns the numeric core's Markov-chain results (:mod:`riskdiet.chain`) into
+named tables a management plan can quote: kills of each prey type per predator
+per day, per 30 days and per year, population totals, diet shares by number
+and by energy, and sums by prey group (MODEL.md section 5).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from riskdiet.chain import season_outlook, steady_state
+from riskdiet.grid import Grid
+from riskdiet.model import Predator, Prey
+from riskdiet.solver import Solution
+
+DAYS_PER_YEAR = 365.0
+DAYS_PER_MONTH = 30.0
+
+
+def _named(names: list[str], values: np.ndarray) -> dict[str, float]:
+    return {n: float(v) for n, v in zip(names, values, strict=True)}
+
+
+def _by_group(prey: tuple[Prey, ...], values: np.ndarray) -> dict[str, float]:
+    out: dict[str, float] = {}
+    for p, v in zip(prey, values, strict=True):
+        out[p.group] = out.get(p.group, 0.0) + float(v)
+    return out
+
+
+def _shares(values: np.ndarray) -> np.ndarray:
+    total = float(values.sum())
+    return values / total if total > 0 else np.zeros_like(values)
+
+
+def _finite(x: float) -> float | None:
+    return float(x) if math.isfinite(x) else None
+
+
+@dataclass(frozen=True)
+class SteadyStateKills:
+    """Long-run kills of a predator population in the breeding currency.
+
+    Attributes
+    ----------
+    kills_per_predator_per_day : dict of str to float
+        K_i for each prey [kills/predator/day].
+    kills_per_predator_per_30_days, kills_per_predator_per_year : dict
+        30 K_i and 365 K_i [kills/predator].
+    kills_per_year_population : dict
+        population x 365 K_i [kills/year].
+    diet_share_by_number, diet_share_by_energy : dict
+        Shares of kills, and of energy eaten (K_i e_i), per prey [fraction].
+    kills_per_predator_per_year_by_group, kills_per_year_population_by_group : dict
+        The same kills summed by prey group.
+    diet_share_by_number_by_group, diet_share_by_energy_by_group : dict
+        Diet shares summed by prey group [fraction].
+    share_of_time_injured : float
+        Long-run fraction of days spent injured.
+    mean_reserves_fraction, mean_reserves_mj : float
+        Long-run mean reserves [fraction of capacity], [MJ].
+    daily_survival : float
+        Long-run chance of surviving a day [probability].
+    expected_lifetime_days : float or None
+        Of a newcomer; None when unbounded (it can live forever).
+    expected_breeding_events : float or None
+        Of a newcomer over its life; None when unbounded.
+    first_breeding_probability : float
+        Chance that a newcomer reaches breeding condition before dying.
+    death_before_breeding : dict
+        Chance that a newcomer dies of ``starvation``, ``attack`` or ``other``
+        causes before its first breeding.
+    """
+
+    kills_per_predator_per_day: dict[str, float]
+    kills_per_predator_per_30_days: dict[str, float]
+    kills_per_predator_per_year: dict[str, float]
+    kills_per_year_population: dict[str, float]
+    diet_share_by_number: dict[str, float]
+    diet_share_by_energy: dict[str, float]
+    kills_per_predator_per_year_by_group: dict[str, float]
+    kills_per_year_population_by_group: dict[str, float]
+    diet_share_by_number_by_group: dict[str, float]
+    diet_share_by_energy_by_group: dict[str, float]
+    share_of_time_injured: float
+    mean_reserves_fraction: float
+    mean_reserves_mj: float
+    daily_survival: float
+    expected_lifetime_days: float | None
+    expected_breeding_events: float | None
+    first_breeding_probability: float
+    death_before_breeding: dict[str, float]
+
+    def to_dict(self) -> dict:
+        return dict(self.__dict__)
+
+
+@dataclass(frozen=True)
+class SeasonKills:
+    """Kills over one season in the season currency.
+
+    Attributes
+    ----------
+    expected_kills : dict of str to float
+        Expected kills of each prey per predator over the season.
+    expected_kills_population : dict
+        population x expected kills.
+    expected_kills_by_group, expected_kills_population_by_group : dict
+        The same summed by prey group.
+    survival_to_end : float
+        Chance of being alive on the last day.
+    chance_above_threshold : float
+        Chance of being alive on the last day with reserves at or above the
+        season reserve threshold (equals the fitness at the start state).
+    survival_by_day : list of float
+        Chance of being alive on each day 0..T.
+    mean_reserves_fraction_by_day : list of float
+        Mean reserves of the living on each day [fraction of capacity].
+    """
+
+    expected_kills: dict[str, float]
+    expected_kills_population: dict[str, float]
+    expected_kills_by_group: dict[str, float]
+    expected_kills_population_by_group: dict[str, float]
+    survival_to_end: float
+    chance_above_threshold: float
+    survival_by_day: list[float]
+    mean_reserves_fraction_by_day: list[float]
+
+    def to_dict(self) -> dict:
+        return dict(self.__dict__)
+
+
+def steady_state_kills(predator: Predator, prey: tuple[Prey, ...], grid: Grid,
+                       solution: Solution) -> SteadyStateKills:
+    """Named long-run kill predictions (breeding currency)."""
+    chain = steady_state(grid, solution)
+    names = [p.name for p in prey]
+    per_day = np.asarray(chain.kills_per_day, dtype=float)
+    energy = per_day * np.array([p.energy_mj for p in prey])
+    per_year = DAYS_PER_YEAR * per_day
+    population = per_year * predator.population
+    return SteadyStateKills(
+        kills_per_predator_per_day=_named(names, per_day),
+        kills_per_predator_per_30_days=_named(names, DAYS_PER_MONTH * per_day),
+        kills_per_predator_per_year=_named(names, per_year),
+        kills_per_year_population=_named(names, population),
+        diet_share_by_number=_named(names, _shares(per_day)),
+        diet_share_by_energy=_named(names, _shares(energy)),
+        kills_per_predator_per_year_by_group=_by_group(prey, per_year),
+        kills_per_year_population_by_group=_by_group(prey, population),
+        diet_share_by_number_by_group=_by_group(prey, _shares(per_day)),
+        diet_share_by_energy_by_group=_by_group(prey, _shares(energy)),
+        share_of_time_injured=float(chain.share_of_time_injured),
+        mean_reserves_fraction=float(chain.mean_reserves_levels) / grid.n,
+        mean_reserves_mj=float(chain.mean_reserves_levels) * grid.step_mj,
+        daily_survival=float(chain.daily_survival),
+        expected_lifetime_days=_finite(chain.expected_lifetime_days),
+        expected_breeding_events=_finite(chain.expected_breeding_events),
+        first_breeding_probability=float(chain.first_breeding_probability),
+        death_before_breeding={k: float(v) for k, v in chain.death_before_breeding.items()},
+    )
+
+
+def season_kills(predator: Predator, prey: tuple[Prey, ...], grid: Grid,
+                 solution: Solution) -> SeasonKills:
+    """Named season kill predictions (season currency)."""
+    out = season_outlook(grid, solution)
+    names = [p.name for p in prey]
+    kills = np.asarray(out.expected_kills, dtype=float)
+    population = kills * predator.population
+    return SeasonKills(
+        expected_kills=_named(names, kills),
+        expected_kills_population=_named(names, population),
+        expected_kills_by_group=_by_group(prey, kills),
+        expected_kills_population_by_group=_by_group(prey, population),
+        survival_to_end=float(out.survival_to_end),
+        chance_above_threshold=float(out.chance_above_threshold),
+        survival_by_day=[float(v) for v in out.survival_by_day],
+        mean_reserves_fraction_by_day=[float(v) / grid.n for v in out.mean_reserves_by_day],
+    )
