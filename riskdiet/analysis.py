@@ -11,13 +11,17 @@ Scenarios are independent, so :func:`solve` accepts any
 
 from __future__ import annotations
 
+import dataclasses
 from concurrent.futures import Executor
 from dataclasses import dataclass, field
+
 import numpy as np
 
 import riskdiet
+from riskdiet.classic import ClassicResult, classic_prey_model
 from riskdiet.grid import Grid, make_grid
 from riskdiet.model import Predator, Prey, Scenario, Study
+from riskdiet.predictions import SeasonKills, SteadyStateKills, season_kills, steady_state_kills
 from riskdiet.solver import Solution, solve_grid
 
 CONDITIONS = ("healthy", "injured")
@@ -78,7 +82,15 @@ class ScenarioResult:
         Final Bellman residual.
     grid, solution
         The discretised inputs and the numeric-core solution, for downstream
-        analyses (kill predictions, figures).
+        analyses (figures, maps).
+    classic : ClassicResult
+        The classic prey model for a well-fed forager (MODEL.md section 6).
+    kills : SteadyStateKills or None
+        Long-run kill predictions (breeding currency).
+    season_kills : SeasonKills or None
+        Kill predictions over the season (season currency).
+    findings : tuple of str
+        Plain-language sentences derived from the numbers.
     """
 
     name: str
@@ -97,6 +109,10 @@ class ScenarioResult:
     linear_solver: str
     grid: Grid = field(repr=False)
     solution: Solution = field(repr=False)
+    classic: ClassicResult | None = None
+    kills: SteadyStateKills | None = None
+    season_kills: SeasonKills | None = None
+    findings: tuple[str, ...] = ()
 
     @property
     def prey_names(self) -> list[str]:
@@ -113,8 +129,8 @@ class ScenarioResult:
             for i, name in enumerate(self.prey_names):
                 for lo, hi in _runs(attacked[:, i]):
                     jl, jh = living[lo], living[hi]
-                    out.append(AttackRange(name, cond, float(jl / n), float(jh / n), float(jl * cap / n),
-                                           float(jh * cap / n)))
+                    out.append(AttackRange(name, cond, float(jl / n), float(jh / n),
+                                           float(jl * cap / n), float(jh * cap / n)))
         return out
 
     def to_dict(self) -> dict:
@@ -132,6 +148,10 @@ class ScenarioResult:
             "iterations": self.iterations,
             "converged": self.converged,
             "linear_solver": self.linear_solver,
+            "classic": self.classic.to_dict() if self.classic else None,
+            **({"steady_state": self.kills.to_dict()} if self.kills else {}),
+            **({"season": self.season_kills.to_dict()} if self.season_kills else {}),
+            "findings": list(self.findings),
         }
 
 
@@ -202,6 +222,20 @@ def solve_scenario(study: Study, scenario: Scenario) -> ScenarioResult:
     solution = solve_grid(grid)
     names = [p.name for p in prey]
     reserves = np.arange(grid.n + 1) * grid.step_mj
+    classic = classic_prey_model(
+        names,
+        [p.encounters(predator) for p in prey],
+        [p.energy_mj for p in prey],
+        [p.handling_days for p in prey],
+        grid.capture[0],
+        [p.fatality_chance for p in prey],
+        predator.background_mortality,
+        predator.effective_daily_cost_mj,
+    )
+    if grid.currency == "breeding":
+        kills, season = steady_state_kills(predator, prey, grid, solution), None
+    else:
+        kills, season = None, season_kills(predator, prey, grid, solution)
     return ScenarioResult(
         name=scenario.name,
         currency=grid.currency,
@@ -219,6 +253,9 @@ def solve_scenario(study: Study, scenario: Scenario) -> ScenarioResult:
         linear_solver=solution.linear_solver,
         grid=grid,
         solution=solution,
+        classic=classic,
+        kills=kills,
+        season_kills=season,
     )
 
 
@@ -245,4 +282,8 @@ def solve(study: Study, executor: Executor | None = None) -> StudyResult:
         results = [_run_one(study, s) for s in study.scenarios]
     else:
         results = list(executor.map(_run_one, [study] * len(study.scenarios), study.scenarios))
+    from riskdiet.findings import findings
+
+    baseline = results[0]
+    results = [dataclasses.replace(r, findings=findings(r, baseline)) for r in results]
     return StudyResult(study, tuple(results))

@@ -418,6 +418,22 @@ def _build_record(cls: type, raw: Any, where: Any, problems: list[Problem],
         return None
 
 
+def range_problems(predator: Predator, prey: list[tuple[int, Prey]],
+                   where_predator: Any, where_prey: Any) -> list[Problem]:
+    """Values outside their field's bounds; ``prey`` pairs each record with its input index."""
+    problems: list[Problem] = []
+    for name, spec in field_specs(Predator).items():
+        value = getattr(predator, name)
+        if spec.numeric and value is not None and not spec.in_range(value):
+            problems.append(Problem(where_predator(name), spec.expected(), describe(value)))
+    for i, p in prey:
+        for name, spec in field_specs(Prey).items():
+            value = getattr(p, name)
+            if spec.numeric and value is not None and not spec.in_range(value):
+                problems.append(Problem(where_prey(i, name), spec.expected(), describe(value)))
+    return problems
+
+
 def check_values(predator: Predator, prey: tuple[Prey, ...],
                  where_predator: Any, where_prey: Any) -> tuple[list[Problem], list[Notice]]:
     """Range and cross-field rules on built inputs (baseline or scenario).
@@ -429,17 +445,8 @@ def check_values(predator: Predator, prey: tuple[Prey, ...],
     where_prey : callable
         ``(index, field) -> location``.
     """
-    problems: list[Problem] = []
     notices: list[Notice] = []
-    for name, spec in field_specs(Predator).items():
-        value = getattr(predator, name)
-        if spec.numeric and value is not None and not spec.in_range(value):
-            problems.append(Problem(where_predator(name), spec.expected(), describe(value)))
-    for i, p in enumerate(prey):
-        for name, spec in field_specs(Prey).items():
-            value = getattr(p, name)
-            if spec.numeric and value is not None and not spec.in_range(value):
-                problems.append(Problem(where_prey(i, name), spec.expected(), describe(value)))
+    problems = range_problems(predator, list(enumerate(prey)), where_predator, where_prey)
     if problems:
         return problems, notices
 
@@ -622,6 +629,7 @@ def build_study(raw: Any, locator: Locator | None = None, source: str = "") -> S
 
     raw_prey = raw.get("prey")
     prey: list[Prey] = []
+    built_prey: list[tuple[int, Prey]] = []
     if not isinstance(raw_prey, list) or not raw_prey:
         problems.append(Problem("prey", "a list of at least one prey type", describe(raw_prey)))
         raw_prey = []
@@ -629,6 +637,7 @@ def build_study(raw: Any, locator: Locator | None = None, source: str = "") -> S
         built = _build_record(Prey, row, lambda f, i=i: loc.prey(i, f), problems, "prey")
         if built is not None:
             prey.append(built)
+            built_prey.append((i, built))
 
     settings = _build_record(Settings, raw.get("settings") or {}, loc.settings, problems,
                              "settings") or Settings()
@@ -636,6 +645,9 @@ def build_study(raw: Any, locator: Locator | None = None, source: str = "") -> S
     if not problems and predator is not None:
         found, notices = check_values(predator, tuple(prey), loc.predator, loc.prey)
         problems.extend(found)
+    elif predator is not None:
+        # values that did convert are still range-checked, so one pass reports every fault
+        problems.extend(range_problems(predator, built_prey, loc.predator, loc.prey))
 
     scenarios = _build_scenarios(raw.get("scenarios") or [], loc, problems)
     uncertainty = _build_uncertainty(raw.get("uncertainty") or [], loc, problems, prey)

@@ -33,7 +33,8 @@ def scenario_summary(result: ScenarioResult) -> str:
     ]
     width = max(len(n) for n in result.prey_names)
     for cond in CONDITIONS:
-        lines.append(f"  Prey attacked by {"an" if cond[0] in "aeiou" else "a"} {cond} animal, by reserves (fraction of "
+        article = "an" if cond[0] in "aeiou" else "a"
+        lines.append(f"  Prey attacked by {article} {cond} animal, by reserves (fraction of "
                      f"{p.reserve_capacity_mj:g} MJ):")
         for name in result.prey_names:
             lines.append(f"    {name:<{width}}  {ranges_text(result, name, cond)}")
@@ -50,3 +51,107 @@ def solve_summary(result: StudyResult) -> str:
     head = [f"{result.study.name} (riskdiet {result.riskdiet_version})",
             f"Input: {result.study.source}  SHA-256 {result.study.source_sha256}", "", ""]
     return "\n".join(head) + "\n\n".join(scenario_summary(s) for s in result.scenarios)
+
+
+def format_value(value, kind: str) -> str:
+    """One comparison cell for people: probabilities to 3 places, fractions as %."""
+    if value is None:
+        return "—"
+    if kind == "text":
+        return str(value)
+    if kind == "fraction":
+        return f"{100 * value:.0f} %"
+    if kind == "probability":
+        return f"{value:.3f}"
+    return f"{value:.3g}" if abs(value) < 100 else f"{value:.0f}"
+
+
+def format_delta(delta, pct, kind: str) -> str:
+    """A signed change against the baseline, e.g. ``+0.120 (+15 %)``."""
+    if delta is None:
+        return ""
+    if kind == "fraction":
+        return _signed(f"{100 * delta:+.0f}") + " pts"
+    text = _signed(f"{delta:+.3f}" if kind == "probability" else f"{delta:+.3g}")
+    return text + (f" ({_signed(f'{pct:+.0f}')} %)" if pct is not None else "")
+
+
+def _signed(text: str) -> str:
+    """Drop the sign of a change that rounds to zero (``-0`` reads as a loss)."""
+    return text[1:] if text.lstrip("+-").strip("0.") == "" else text
+
+
+def comparison_renderables(table, width: int = 100) -> list:
+    """The scenario comparison as rich Tables (rows = scenarios).
+
+    A table wider than ``width`` characters is printed in column blocks, each
+    repeating the scenario column, the way wide data frames are printed.
+    """
+    from rich.table import Table
+
+    cells = []
+    for r, row in enumerate(table.rows):
+        line = []
+        for c, col in enumerate(table.columns):
+            text = format_value(row[c], col.kind)
+            if r > 0 and c > 0:
+                change = format_delta(table.deltas[r][c], table.percent[r][c], col.kind)
+                if change:
+                    text += "\n" + change
+            line.append(text)
+        cells.append(line)
+    need = []
+    for c, col in enumerate(table.columns):
+        longest_word = max(len(w) for w in col.label.split())
+        longest_cell = max(len(x) for line in cells for x in line[c].split("\n"))
+        need.append(max(longest_word, longest_cell, min(len(col.label), 14)) + 3)
+    blocks, current, used = [], [], need[0]
+    for c in range(1, len(table.columns)):
+        if current and used + need[c] > width:
+            blocks.append(current)
+            current, used = [], need[0]
+        current.append(c)
+        used += need[c]
+    if current:
+        blocks.append(current)
+    out = []
+    for b, block in enumerate(blocks):
+        title = ("Scenarios compared (under each value: change against the baseline)"
+                 if b == 0 else None)
+        t = Table(title=title, show_lines=True)
+        for c in [0, *block]:
+            col = table.columns[c]
+            t.add_column(col.label, justify="left" if c == 0 else "right",
+                         min_width=need[c] - 3)
+        for line in cells:
+            t.add_row(*[line[c] for c in [0, *block]])
+        out.append(t)
+    return out
+
+
+def classic_summary(result: StudyResult) -> str:
+    """The classic prey model of every scenario as text."""
+    blocks = []
+    for s in result.scenarios:
+        c = s.classic
+        lines = [f"Scenario: {s.name}", "  rank  prey                      profitability (MJ/day)"]
+        order = sorted(range(len(c.names)), key=lambda i: int(c.rank[i]))
+        for i in order:
+            prof = float(c.profitability_mj_per_day[i])
+            prof_text = "no handling time" if prof == float("inf") else f"{prof:.3g}"
+            lines.append(f"  {int(c.rank[i]):>4}  {c.names[i]:<24}  {prof_text}")
+        lines.append(f"  Rate-maximising diet (Charnov 1976): "
+                     f"{', '.join(c.rate_maximizing_diet) or 'none'}; rate "
+                     f"{c.rate_mj_per_day:.3g} MJ/day")
+        for name, thr in c.switching_threshold_per_day.items():
+            lines.append(f"    {name} stays out while the better prey are met more than "
+                         + ("(never: abundance of better prey alone cannot exclude it)"
+                            if thr == float("inf") else f"{thr:.3g} times a day"))
+        if c.risk_adjusted_diet is None:
+            lines.append("  Risk-adjusted diet (Gilliam's rule): none")
+        else:
+            lines.append("  Risk-adjusted diet (Gilliam's rule, Werner & Gilliam 1984): "
+                         f"{', '.join(c.risk_adjusted_diet)} ({c.risk_adjusted_method})")
+        lines.append(f"  {c.statement}")
+        blocks.append("\n".join(lines))
+    return "\n\n".join(blocks)

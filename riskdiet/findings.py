@@ -1,0 +1,245 @@
+"""Plain-language findings derived from a scenario's numbers.
+
+Every sentence is generated from the results (attack ranges, kill predictions,
+the classic diets, the baseline comparison); nothing is written per study.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from riskdiet.analysis import CONDITIONS, ScenarioResult
+
+WILD_GROUPS = {"wild", ""}
+
+
+@dataclass(frozen=True)
+class AttackPattern:
+    """How one prey is taken by one condition, read from low to high reserves.
+
+    Attributes
+    ----------
+    kind : str
+        ``never``, ``all`` (every level at which anything is attacked),
+        ``below`` (only below ``upper``), ``above`` (only above ``lower``) or
+        ``mixed`` (several runs).
+    lower, upper : float
+        Lowest and highest reserve fraction at which the prey is attacked.
+    runs : list of (float, float)
+        Every run of reserve fractions.
+    """
+
+    kind: str
+    lower: float
+    upper: float
+    runs: list[tuple[float, float]]
+
+
+def attack_pattern(result: ScenarioResult, prey: str, condition: str) -> AttackPattern:
+    """Classify where a prey is attacked (MODEL.md section 7, per prey)."""
+    ranges = result.attack_ranges()
+    runs = [(r.low_fraction, r.high_fraction) for r in ranges
+            if r.prey == prey and r.condition == condition]
+    if not runs:
+        return AttackPattern("never", float("nan"), float("nan"), [])
+    lowest_any = min(r.low_fraction for r in ranges if r.condition == condition)
+    top = float(result.grid.living[-1] / result.grid.n)
+    lo, hi = runs[0][0], runs[-1][1]
+    if len(runs) > 1:
+        kind = "mixed"
+    elif lo <= lowest_any + 0.05 + 1e-9 and hi >= top - 1e-9:
+        kind = "all"
+    elif hi >= top - 1e-9:
+        kind = "above"
+    elif lo <= lowest_any + 0.05 + 1e-9:
+        kind = "below"
+    else:
+        kind = "mixed"
+    return AttackPattern(kind, lo, hi, runs)
+
+
+def _pct(x: float) -> str:
+    return f"{100 * x:.0f} %"
+
+
+def _list(names: list[str]) -> str:
+    if len(names) <= 1:
+        return "".join(names)
+    return ", ".join(names[:-1]) + " and " + names[-1]
+
+
+def _span(a: float, b: float) -> str:
+    return _pct(a) if abs(a - b) < 1e-9 else f"{_pct(a)[:-2]}–{_pct(b)}"
+
+
+def _describe(pattern: AttackPattern, name: str, mj_per_fraction: float) -> str:
+    if pattern.kind == "below":
+        return (f"{name} only when reserves are below about {_pct(pattern.upper)} "
+                f"({pattern.upper * mj_per_fraction:.0f} MJ)")
+    if pattern.kind == "above":
+        if pattern.lower < 0.15:
+            return (f"{name} except when reserves are nearly exhausted (below "
+                    f"{_pct(pattern.lower)})")
+        return f"{name} only when reserves are above about {_pct(pattern.lower)}"
+    runs = ", ".join(_span(a, b) for a, b in pattern.runs)
+    return f"{name} at reserves of {runs}"
+
+
+def _kills_sentence(result: ScenarioResult) -> list[str]:
+    out = []
+    pop = result.predator.population
+    if result.kills is not None:
+        k = result.kills
+        per_year = k.kills_per_predator_per_year
+        order = sorted(per_year, key=per_year.get, reverse=True)
+        main = [f"{per_year[n]:.1f} {n}" for n in order if per_year[n] >= 0.05][:4]
+        if main:
+            out.append(f"Each predator is predicted to kill about {_list(main)} a year"
+                       + (f"; for the {pop} predators of the area, "
+                          + _list([f"{k.kills_per_year_population[n]:.0f} {n}"
+                                   for n in order if per_year[n] >= 0.05][:4]) + " a year."
+                          if pop > 1 else "."))
+        unwanted = {g: v for g, v in k.kills_per_year_population_by_group.items()
+                    if g.lower() not in WILD_GROUPS}
+        for group, value in unwanted.items():
+            out.append(f"Predicted {group} kills by the whole population: {value:.1f} a year "
+                       f"({100 * k.diet_share_by_number_by_group.get(group, 0):.0f} % of kills "
+                       "by number).")
+        out.append(f"A predator spends {100 * k.share_of_time_injured:.0f} % of its days "
+                   f"injured; mean reserves are {_pct(k.mean_reserves_fraction)} of capacity.")
+        if k.expected_lifetime_days is not None:
+            out.append(f"A newly arrived animal lives about {k.expected_lifetime_days:.0f} days "
+                       "on average; of newcomers, "
+                       f"{100 * k.death_before_breeding.get('starvation', 0):.0f} % starve, "
+                       f"{100 * k.death_before_breeding.get('attack', 0):.0f} % are killed by "
+                       f"prey and {100 * k.death_before_breeding.get('other', 0):.0f} % die of "
+                       "other causes before they first breed.")
+    if result.season_kills is not None:
+        s = result.season_kills
+        main = [f"{v:.1f} {n}" for n, v in sorted(s.expected_kills.items(),
+                                                  key=lambda kv: -kv[1]) if v >= 0.05][:4]
+        if main:
+            out.append(f"Over the season each predator is predicted to kill about {_list(main)}.")
+        out.append(f"It survives the season with probability {s.survival_to_end:.2f} and ends "
+                   f"it in condition with probability {s.chance_above_threshold:.2f}.")
+    return out
+
+
+def _classic_sentences(result: ScenarioResult) -> list[str]:
+    c = result.classic
+    if c is None:
+        return []
+    if not c.meets_daily_cost:
+        return [c.statement]
+    out = []
+    always = set()
+    for name in result.prey_names:
+        if attack_pattern(result, name, "healthy").kind == "all":
+            always.add(name)
+    classic = set(c.rate_maximizing_diet)
+    taken = {n for n in result.prey_names
+             if attack_pattern(result, n, "healthy").kind != "never"}
+    extra = [n for n in result.prey_names if n in taken and n not in classic]
+    skipped = [n for n in result.prey_names if n in classic and n not in always]
+    if not extra and not skipped:
+        out.append("The classic rate-maximising diet and the state-dependent model agree for a "
+                   "healthy predator.")
+    if extra:
+        out.append(f"The classic rate-maximising diet leaves out {_list(extra)}, but a "
+                   "predator short of reserves takes "
+                   + ("it." if len(extra) == 1 else "them."))
+    if skipped:
+        out.append(f"The classic model includes {_list(skipped)} at all times, but the "
+                   "state-dependent predator takes " + ("it" if len(skipped) == 1 else "them")
+                   + " only at some reserves.")
+    return out
+
+
+def findings(result: ScenarioResult, baseline: ScenarioResult | None = None) -> tuple[str, ...]:
+    """Short sentences a manager can quote, derived from one scenario's results.
+
+    Parameters
+    ----------
+    result : ScenarioResult
+        The scenario.
+    baseline : ScenarioResult, optional
+        The baseline, for sentences on what the scenario changes.
+    """
+    p = result.predator
+    out: list[str] = []
+    what = ("reaches breeding condition" if result.currency == "breeding"
+            else "ends the season alive and in condition")
+    out.append(f"A healthy animal arriving with {_pct(p.start_reserves)} reserves {what} with "
+               f"probability {result.fitness_at_start:.2f}.")
+    mj = p.reserve_capacity_mj
+    for cond in CONDITIONS:
+        patterns = {n: attack_pattern(result, n, cond) for n in result.prey_names}
+        always = [n for n, pt in patterns.items() if pt.kind == "all"]
+        never = [n for n, pt in patterns.items() if pt.kind == "never"]
+        some = [_describe(pt, n, mj) for n, pt in patterns.items() if pt.kind not in
+                ("all", "never")]
+        who = "A healthy" if cond == "healthy" else "An injured"
+        parts = []
+        if always:
+            parts.append(f"takes {_list(always)} at all reserves")
+        if some:
+            parts.append("takes " + "; ".join(some))
+        if never:
+            parts.append(f"never attacks {_list(never)}")
+        if parts:
+            out.append(f"{who} predator " + "; ".join(parts) + ".")
+    for prey in result.prey:
+        if prey.group.lower() in WILD_GROUPS:
+            continue
+        h = attack_pattern(result, prey.name, "healthy")
+        i = attack_pattern(result, prey.name, "injured")
+        if h.kind == "below":
+            out.append(f"The {prey.group} prey {prey.name} enters the diet when reserves fall "
+                       f"below about {_pct(h.upper)} ({h.upper * mj:.0f} MJ).")
+        elif h.kind == "all":
+            out.append(f"The {prey.group} prey {prey.name} is taken whenever met, at all "
+                       "reserves.")
+        elif h.kind == "mixed":
+            out.append(f"The {prey.group} prey {prey.name} is taken at reserves of "
+                       + ", ".join(_span(a, b) for a, b in h.runs) + ".")
+        if i.kind != h.kind or (i.kind == h.kind == "below" and abs(i.upper - h.upper) > 0.02):
+            if i.kind == "never":
+                out.append(f"Injury stops attacks on {prey.name}.")
+            elif h.kind != "all" and i.upper > (h.upper if h.kind != "never" else 0) + 0.02:
+                out.append(f"Injury widens attacks on {prey.name}: an injured animal takes it "
+                           f"up to {_pct(i.upper)} reserves.")
+    for prey in result.prey:
+        if not prey.risky:
+            continue
+        h = attack_pattern(result, prey.name, "healthy")
+        i = attack_pattern(result, prey.name, "injured")
+        if h.kind != "never" and i.kind != "never" and i.upper > h.upper + 0.02:
+            out.append(f"Injured animals take the risky {prey.name} at higher reserves (up to "
+                       f"{_pct(i.upper)}) than healthy ones (up to {_pct(h.upper)}).")
+    out.extend(_classic_sentences(result))
+    out.extend(_kills_sentence(result))
+    g = result.marginal_hunting_ability
+    if np.isfinite(g):
+        out.append(f"Each 0.1 of extra hunting ability changes that probability by {0.1 * g:+.3f}"
+                   + (f" (elasticity {result.elasticity:.2f})." if np.isfinite(result.elasticity)
+                      else "."))
+    if baseline is not None and baseline is not result:
+        out.extend(_versus_baseline(result, baseline))
+    return tuple(out)
+
+
+def _versus_baseline(result: ScenarioResult, baseline: ScenarioResult) -> list[str]:
+    out = []
+    d = result.fitness_at_start - baseline.fitness_at_start
+    out.append(f"Compared with the baseline, the chance changes by {d:+.2f} "
+               f"(from {baseline.fitness_at_start:.2f} to {result.fitness_at_start:.2f}).")
+    a, b = result.kills, baseline.kills
+    if a is not None and b is not None:
+        for group, base in b.kills_per_year_population_by_group.items():
+            new = a.kills_per_year_population_by_group.get(group, 0.0)
+            if base > 0 and abs(new - base) / base >= 0.05:
+                out.append(f"Population kills of {group} prey change from {base:.0f} to "
+                           f"{new:.0f} a year ({100 * (new - base) / base:+.0f} %).")
+    return out

@@ -1,0 +1,224 @@
+"""The result tables a manager attaches to a plan, independent of file format.
+
+The workbook writer and the CSV writer both write exactly these tables, so the
+two never disagree. Column headers carry units.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import re
+from dataclasses import dataclass, field
+
+from riskdiet.analysis import ScenarioResult, StudyResult
+from riskdiet.compare import comparison_table
+from riskdiet.fields import field_specs
+from riskdiet.model import Predator, Prey
+
+
+@dataclass(frozen=True)
+class Table:
+    """A titled table.
+
+    Attributes
+    ----------
+    name : str
+        Sheet name / CSV file stem.
+    title : str
+        One line describing the table.
+    header : list of str
+        Column names with units.
+    rows : list of list
+        Cell values (numbers stay numbers).
+    formats : dict of int to str
+        Number format by column index (spreadsheet syntax, e.g. ``0.000``).
+    notes : list of str
+        Lines shown under the title.
+    """
+
+    name: str
+    title: str
+    header: list[str]
+    rows: list[list]
+    formats: dict[int, str] = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)
+
+
+def sheet_name(text: str, taken: set[str]) -> str:
+    """A valid, unique sheet name (≤ 31 characters, no ``[]:*?/\\``)."""
+    base = re.sub(r"[\[\]:*?/\\]", "-", text).strip("'") or "sheet"
+    base = base[:31]
+    name, i = base, 2
+    while name.lower() in taken:
+        suffix = f" ({i})"
+        name = base[: 31 - len(suffix)] + suffix
+        i += 1
+    taken.add(name.lower())
+    return name
+
+
+def _summary(result: StudyResult, date: str) -> Table:
+    rows = [["study", result.study.name], ["input file", result.study.source],
+            ["input SHA-256", result.study.source_sha256],
+            ["riskdiet version", result.riskdiet_version], ["date", date], [], ]
+    rows.append(["scenario", "finding"])
+    for s in result.scenarios:
+        for i, f in enumerate(s.findings):
+            rows.append([s.name if i == 0 else "", f])
+    return Table("Summary", "What the predator is predicted to take, scenario by scenario",
+                 ["item", "value"], rows,
+                 notes=["Decision aid only: values must come from local data; any measure "
+                        "follows wildlife law, the wildlife authority and licensed "
+                        "professionals' judgement."])
+
+
+def _scenario(s: ScenarioResult, name: str) -> Table:
+    n = s.grid.n
+    header = ["level", "reserves_mj", "reserves_fraction", "fitness_healthy",
+              "fitness_injured", "attacks_healthy (best first)", "attacks_injured (best first)",
+              "marginal_hunting_ability_healthy"]
+    rows = []
+    marginal = s.solution.marginal_by_level
+    for j in range(n + 1):
+        rows.append([j, float(s.reserves_mj[j]), j / n, float(s.fitness["healthy"][j]),
+                     float(s.fitness["injured"][j]), ", ".join(s.policy["healthy"][j]),
+                     ", ".join(s.policy["injured"][j]), float(marginal[0, j])])
+    what = ("probability of reaching breeding condition" if s.currency == "breeding"
+            else "probability of ending the season alive and in condition (day 0)")
+    notes = [f"Fitness = {what}. Fitness at start: {s.fitness_at_start:.4f}.",
+             f"Marginal value of hunting ability at start: {s.marginal_hunting_ability:+.4f} "
+             f"(elasticity {s.elasticity:.3f})."]
+    return Table(name, f"Scenario {s.name}: decisions and fitness by reserve level", header,
+                 rows, {1: "0.00", 2: "0%", 3: "0.0000", 4: "0.0000", 7: "0.0000"}, notes)
+
+
+def _kills(result: StudyResult) -> Table:
+    header = ["scenario", "prey", "group", "kills_per_predator_per_day",
+              "kills_per_predator_per_30_days", "kills_per_predator_per_year",
+              "kills_per_year_population", "diet_share_by_number", "diet_share_by_energy",
+              "expected_kills_per_predator_per_season", "expected_kills_population_per_season"]
+    rows = []
+    for s in result.scenarios:
+        for p in s.prey:
+            k, z = s.kills, s.season_kills
+            rows.append([
+                s.name, p.name, p.group,
+                k.kills_per_predator_per_day[p.name] if k else None,
+                k.kills_per_predator_per_30_days[p.name] if k else None,
+                k.kills_per_predator_per_year[p.name] if k else None,
+                k.kills_per_year_population[p.name] if k else None,
+                k.diet_share_by_number[p.name] if k else None,
+                k.diet_share_by_energy[p.name] if k else None,
+                z.expected_kills[p.name] if z else None,
+                z.expected_kills_population[p.name] if z else None,
+            ])
+    return Table("Kills", "Predicted kills of each prey type (steady state or season)", header,
+                 rows, {3: "0.0000", 4: "0.00", 5: "0.0", 6: "0.0", 7: "0%", 8: "0%", 9: "0.00",
+                        10: "0.0"})
+
+
+def _predators(result: StudyResult) -> Table:
+    header = ["scenario", "currency", "share_of_time_injured", "mean_reserves_fraction",
+              "mean_reserves_mj", "daily_survival", "expected_lifetime_days",
+              "expected_breeding_events", "first_breeding_probability",
+              "death_before_breeding_starvation", "death_before_breeding_attack",
+              "death_before_breeding_other", "survival_to_end", "chance_above_threshold"]
+    rows = []
+    for s in result.scenarios:
+        k, z = s.kills, s.season_kills
+        rows.append([
+            s.name, s.currency,
+            k.share_of_time_injured if k else None, k.mean_reserves_fraction if k else None,
+            k.mean_reserves_mj if k else None, k.daily_survival if k else None,
+            (k.expected_lifetime_days if k.expected_lifetime_days is not None else "unbounded")
+            if k else None,
+            (k.expected_breeding_events if k.expected_breeding_events is not None
+             else "unbounded") if k else None,
+            k.first_breeding_probability if k else None,
+            k.death_before_breeding.get("starvation") if k else None,
+            k.death_before_breeding.get("attack") if k else None,
+            k.death_before_breeding.get("other") if k else None,
+            z.survival_to_end if z else None, z.chance_above_threshold if z else None,
+        ])
+    return Table("Predators", "What happens to the predators themselves", header, rows,
+                 {2: "0.0%", 3: "0%", 4: "0.0", 5: "0.00000", 6: "0", 7: "0.00", 8: "0.000",
+                  9: "0.000", 10: "0.000", 11: "0.000", 12: "0.000", 13: "0.000"})
+
+
+def _comparison(result: StudyResult) -> Table:
+    table = comparison_table(result)
+    header = list(table.keys)
+    rows = [list(r) for r in table.rows]
+    delta_rows = []
+    for r, row in enumerate(table.deltas):
+        if r == 0:
+            continue
+        delta_rows.append([f"{table.rows[r][0]} minus baseline", *row[1:]])
+    formats = {}
+    for i, c in enumerate(table.columns):
+        formats[i] = {"probability": "0.000", "fraction": "0%", "count": "0.0"}.get(c.kind, "")
+    return Table("Comparison", "Scenarios compared; lower rows give the change against the "
+                 "baseline", header, rows + ([[]] if delta_rows else []) + delta_rows,
+                 {k: v for k, v in formats.items() if v},
+                 notes=["*_takes_below_fraction_*: reserve fraction below which the prey is "
+                        "taken (blank: never)."])
+
+
+def _classic(result: StudyResult) -> Table:
+    header = ["scenario", "prey", "rank", "profitability_mj_per_day", "in_rate_maximizing_diet",
+              "in_risk_adjusted_diet", "switching_threshold_per_day"]
+    rows = []
+    notes = []
+    for s in result.scenarios:
+        c = s.classic
+        if c is None:
+            continue
+        notes.append(f"{s.name}: rate {c.rate_mj_per_day:.3g} MJ/day. {c.statement}")
+        order = sorted(range(len(c.names)), key=lambda i: int(c.rank[i]))
+        for i in order:
+            name = c.names[i]
+            prof = float(c.profitability_mj_per_day[i])
+            thr = c.switching_threshold_per_day.get(name)
+            rows.append([s.name, name, int(c.rank[i]), prof if prof != float("inf") else "no "
+                         "handling time", "yes" if name in c.rate_maximizing_diet else "no",
+                         ("yes" if name in c.risk_adjusted_diet else "no")
+                         if c.risk_adjusted_diet is not None else "no diet pays",
+                         (thr if thr != float("inf") else "never") if thr is not None else None])
+    return Table("Classic", "Classic prey model (well-fed forager): Charnov ranking and "
+                 "Gilliam's risk-adjusted diet", header, rows, {3: "0.00", 6: "0.000"}, notes)
+
+
+def _provenance(result: StudyResult, date: str) -> Table:
+    rows: list[list] = [["riskdiet_version", "", "", result.riskdiet_version],
+                        ["input_file", "", "", result.study.source],
+                        ["input_sha256", "", "", result.study.source_sha256],
+                        ["date", "", "", date]]
+    for s in result.scenarios:
+        rows.append([s.name, "", "solver", f"{s.linear_solver}; {s.iterations} round(s); "
+                     f"converged {s.converged}; Bellman residual {s.residual:.2e}"])
+        for name, spec in field_specs(Predator).items():
+            value = getattr(s.predator, name)
+            if name == "daily_cost_mj" and s.predator.daily_cost_is_estimated:
+                value = f"{s.predator.effective_daily_cost_mj} (estimated, Kleiber 1961)"
+            rows.append([s.name, "predator", f"{name} [{spec.unit}]", value])
+        for p in s.prey:
+            for name, spec in field_specs(Prey).items():
+                value = getattr(p, name)
+                if name == "skill_dependent":
+                    value = p.is_skill_dependent
+                if name == "encounters_per_day" and value is None:
+                    value = f"{p.encounters(s.predator)} (from density)"
+                rows.append([s.name, p.name, f"{name} [{spec.unit}]", value])
+    return Table("Provenance", "Where these numbers come from: every input value as used",
+                 ["scenario", "record", "field [unit]", "value"], rows)
+
+
+def results_tables(result: StudyResult, date: str | None = None) -> list[Table]:
+    """Every table of the results workbook, in sheet order."""
+    date = date or result.study.settings.report_date or _dt.date.today().isoformat()
+    taken = {"summary", "comparison", "kills", "predators", "classic", "provenance"}
+    tables = [_summary(result, date), _comparison(result), _kills(result), _predators(result)]
+    tables += [_scenario(s, sheet_name(s.name, taken)) for s in result.scenarios]
+    tables += [_classic(result), _provenance(result, date)]
+    return tables
+

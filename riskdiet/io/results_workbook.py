@@ -1,0 +1,91 @@
+"""Results as a workbook (one sheet per table) or as CSV files (one per table)."""
+
+from __future__ import annotations
+
+import csv
+from pathlib import Path
+
+from riskdiet.analysis import StudyResult
+from riskdiet.io.atomic import check_writable, write_atomic
+from riskdiet.io.results_tables import Table, results_tables
+
+
+def _write_sheet(ws, table: Table) -> None:
+    from openpyxl.styles import Alignment, Font
+    from openpyxl.utils import get_column_letter
+
+    ws.append([table.title])
+    ws["A1"].font = Font(bold=True, size=12)
+    for note in table.notes:
+        ws.append([note])
+    header_row = ws.max_row + 1
+    ws.append(table.header)
+    for cell in ws[header_row]:
+        cell.font = Font(bold=True)
+        cell.alignment = Alignment(wrap_text=True, vertical="top")
+    for row in table.rows:
+        ws.append([_cell(v) for v in row])
+    for col, fmt in table.formats.items():
+        letter = get_column_letter(col + 1)
+        for r in range(header_row + 1, ws.max_row + 1):
+            cell = ws[f"{letter}{r}"]
+            if isinstance(cell.value, (int, float)) and not isinstance(cell.value, bool):
+                cell.number_format = fmt
+    ws.freeze_panes = ws.cell(row=header_row + 1, column=1)
+    for i, name in enumerate(table.header, start=1):
+        longest = max([len(str(name))] + [len(str(r[i - 1])) for r in table.rows[:200]
+                                          if len(r) >= i and r[i - 1] is not None])
+        ws.column_dimensions[get_column_letter(i)].width = min(max(10, longest + 2), 60)
+
+
+def _cell(value):
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    return value
+
+
+def write_results_workbook(result: StudyResult, path: str | Path, force: bool = False,
+                           date: str | None = None) -> Path:
+    """Write the results workbook (summary, comparison, kills, scenarios, provenance).
+
+    Numbers are stored as numbers with number formats; headers carry units and
+    are frozen. The file is written to a temporary name and renamed, and an
+    existing file is replaced only with ``force``; the input is never touched.
+    """
+    from openpyxl import Workbook
+
+    tables = results_tables(result, date)
+    source = (Path(result.study.source),) if result.study.source else ()
+
+    def write(tmp: Path) -> None:
+        wb = Workbook()
+        wb.remove(wb.active)
+        for table in tables:
+            _write_sheet(wb.create_sheet(table.name), table)
+        wb.save(tmp)
+
+    return write_atomic(Path(path), write, force, source)
+
+
+def write_results_csv(result: StudyResult, folder: str | Path, force: bool = False,
+                      date: str | None = None) -> list[Path]:
+    """Write the same tables as CSV files (UTF-8, one header row) into a folder."""
+    folder = Path(folder)
+    tables = results_tables(result, date)
+    paths = [folder / f"{_slug(t.name)}.csv" for t in tables]
+    source = (Path(result.study.source),) if result.study.source else ()
+    for p in paths:
+        check_writable(p, force, source)
+    for table, p in zip(tables, paths, strict=True):
+        def write(tmp: Path, table: Table = table) -> None:
+            with open(tmp, "w", newline="", encoding="utf-8") as fh:
+                out = csv.writer(fh)
+                out.writerow(table.header)
+                for row in table.rows:
+                    out.writerow(["" if v is None else v for v in row])
+        write_atomic(p, write, force, source)
+    return paths
+
+
+def _slug(name: str) -> str:
+    return "".join(c if c.isalnum() or c in "-_" else "_" for c in name.lower()).strip("_")
