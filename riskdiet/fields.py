@@ -74,9 +74,10 @@ class FieldSpec:
         if lo is not None and hi is not None:
             if not self.low_open and not self.high_open:
                 return f"{noun} from {_fmt(lo)} to {_fmt(hi)}"
-            left = "above" if self.low_open else "from"
-            right = "below" if self.high_open else "up to"
-            return f"{noun} {left} {_fmt(lo)} and {right} {_fmt(hi)}"
+            left = f"above {_fmt(lo)}" if self.low_open else f"from {_fmt(lo)}"
+            right = (f"up to, but not including, {_fmt(hi)}" if self.high_open
+                     else f"up to {_fmt(hi)}")
+            return f"{noun} {left} and {right}" if self.low_open else f"{noun} {left} {right}"
         if lo is not None:
             return f"{noun} {'>' if self.low_open else '≥'} {_fmt(lo)}"
         if hi is not None:

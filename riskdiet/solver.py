@@ -44,7 +44,7 @@ from riskdiet.grid import (
 )
 
 MAX_POLICY_ITERATIONS = 200
-DIRECT_LIMIT = 1000
+DIRECT_LIMIT = 300
 """Largest system (unknowns) factorised directly; larger ones try BiCGSTAB first."""
 SOLVE_TOLERANCE = 1e-13
 """Largest accepted residual |(I - P) x - b| of an iterative solve, relative to |b|."""
