@@ -45,6 +45,10 @@ def write_atomic(path: Path, write: Callable[[Path], None], force: bool = False,
     os.close(fd)
     try:
         write(Path(tmp))
+        # mkstemp creates the file private (0600); give it the usual permissions
+        mask = os.umask(0)
+        os.umask(mask)
+        os.chmod(tmp, 0o666 & ~mask)
         os.replace(tmp, path)
     finally:
         if os.path.exists(tmp):
