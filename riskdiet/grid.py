@@ -11,6 +11,7 @@ living levels, then prey in listing order.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -91,7 +92,7 @@ class Grid:
 
     @property
     def n_prey(self) -> int:
-        return self.gain.shape[0]
+        return self.gain.shape[-1]
 
     @property
     def n_living(self) -> int:
@@ -119,11 +120,13 @@ def capture_success(base: np.ndarray, skill: np.ndarray, ability: float,
         s_i^k and d s_i^k / d a; the derivative of min(1, a s_i) is s_i where
         a s_i < 1 and 0 where the cap binds (MODEL.md section 4).
     """
+    ability = np.asarray(ability, dtype=float)[..., None]
+    injured_factor = np.asarray(injured_factor, dtype=float)[..., None]
     scaled = np.minimum(1.0, ability * base)
     healthy = np.where(skill, scaled, base)
     slope_h = np.where(skill & (ability * base < 1.0), base, 0.0)
-    return (np.stack([healthy, injured_factor * healthy]),
-            np.stack([slope_h, injured_factor * slope_h]))
+    return (np.stack([healthy, injured_factor * healthy], axis=-2),
+            np.stack([slope_h, injured_factor * slope_h], axis=-2))
 
 
 def make_grid(predator: Predator, prey: tuple[Prey, ...]) -> Grid:
@@ -167,6 +170,35 @@ def make_grid(predator: Predator, prey: tuple[Prey, ...]) -> Grid:
     )
 
 
+PER_CELL = ("step_mj", "cost", "mortality", "encounter_prob", "gain", "handling", "capture",
+            "capture_slope", "injury_chance", "injury_loss", "fatality", "recovery",
+            "hunting_ability", "terminal_level", "start_level", "after_breeding_level")
+"""Grid fields that may differ between the cells of a batch (all others must agree)."""
+
+
+def shape_key(grid: Grid) -> tuple:
+    """Grids with equal keys can be stacked into one batch."""
+    return (grid.currency, grid.n, grid.top, grid.n_prey, grid.season_days)
+
+
+def stack_grids(grids: list[Grid]) -> Grid:
+    """Stack grids of equal shape into one batched grid (leading axis = cell).
+
+    The numeric core's step functions accept such a grid unchanged: every
+    per-cell array gains a leading axis of length ``len(grids)``.
+    """
+    first = grids[0]
+    if any(shape_key(g) != shape_key(first) for g in grids):
+        raise ValueError("grids of different shape cannot be stacked")
+    cells = {name: np.stack([np.asarray(getattr(g, name)) for g in grids]) for name in PER_CELL}
+    return dataclasses.replace(first, **cells)
+
+
+def take_cells(grid: Grid, index: np.ndarray) -> Grid:
+    """The cells ``index`` of a batched grid, still batched."""
+    return dataclasses.replace(grid, **{name: getattr(grid, name)[index] for name in PER_CELL})
+
+
 @dataclass(frozen=True)
 class Split:
     """Where a fractional reserve y lands: weight 1-w on level L, w on L+1."""
@@ -175,8 +207,20 @@ class Split:
     weight: np.ndarray
 
     def value(self, v: np.ndarray) -> np.ndarray:
-        """Interpolate a value row ``v`` (levels 0..top) at the split points."""
-        return (1.0 - self.weight) * v[self.low] + self.weight * v[self.low + 1]
+        """Interpolate value rows ``v`` (shape (..., top + 1)) at the split points.
+
+        The split points may carry trailing axes of their own (levels, prey);
+        leading axes of ``v`` are batch axes shared with the split.
+        """
+        return ((1.0 - self.weight) * gather(v, self.low)
+                + self.weight * gather(v, self.low + 1))
+
+
+def gather(v: np.ndarray, index: np.ndarray) -> np.ndarray:
+    """``v[..., index]`` per batch: v has shape (*B, L), index (*B, *S) -> (*B, *S)."""
+    batch = v.shape[:-1]
+    flat = index.reshape(*batch, -1) if batch else index.reshape(-1)
+    return np.take_along_axis(v, flat, -1).reshape(index.shape)
 
 
 def split(y: np.ndarray, top: int) -> Split:
@@ -218,20 +262,26 @@ class Targets:
 
 
 def targets(grid: Grid) -> Targets:
-    """Compute the outcome reserves of one step for every living state."""
-    j = grid.living.astype(float)[None, :, None]
-    c = grid.cost[:, None, None]
-    y_stay = j[..., 0] - grid.cost[:, None]
-    y_cap = j + grid.gain - c * (1.0 + grid.handling)
-    y_inj = j - c - grid.injury_loss
-    r = grid.recovery
+    """Compute the outcome reserves of one step for every living state.
+
+    Works on a single grid and on a stacked batch of grids alike (per-cell
+    arrays then carry leading batch axes; see :func:`stack_grids`).
+    """
+    j = grid.living.astype(float)
+    c = grid.cost[..., :, None, None]
+    gain = grid.gain[..., None, None, :]
+    handling = grid.handling[..., None, None, :]
+    y_stay = j - grid.cost[..., :, None]
+    y_cap = j[:, None] + gain - c * (1.0 + handling)
+    y_inj = j[:, None] - c - grid.injury_loss[..., None, None, :]
+    r = np.asarray(grid.recovery, dtype=float)
     return Targets(
         stay=split(y_stay, grid.top),
         capture=split(y_cap, grid.top),
         injury=split(y_inj, grid.top),
         recover_stay=r,
-        recover_capture=1.0 - (1.0 - r) ** (1.0 + grid.handling),
-        survive_handling=(1.0 - grid.mortality[:, None]) ** grid.handling[None, :],
+        recover_capture=1.0 - (1.0 - r[..., None]) ** (1.0 + grid.handling),
+        survive_handling=(1.0 - grid.mortality[..., :, None]) ** grid.handling[..., None, :],
     )
 
 
@@ -240,8 +290,8 @@ def attack_probabilities(encounter_prob: np.ndarray, priority: np.ndarray) -> np
 
     Parameters
     ----------
-    encounter_prob : ndarray, shape (P,)
-        p_i.
+    encounter_prob : ndarray, shape (P,) or (*B, P)
+        p_i (per cell of a batch: then priority has shape (*B, 2, m, P)).
     priority : ndarray of int, shape (..., P)
         Rank of prey i in the attack set (0 = best), or -1 when ignored.
 
@@ -251,12 +301,15 @@ def attack_probabilities(encounter_prob: np.ndarray, priority: np.ndarray) -> np
         P_i = p_i prod_{l ranked above i} (1 - p_l) for attacked prey, else 0
         (MODEL.md section 3).
     """
-    n_prey = encounter_prob.shape[0]
+    n_prey = encounter_prob.shape[-1]
     attacked = priority >= 0
     # order prey by rank; ignored prey go last and contribute a factor of 1
     key = np.where(attacked, priority, n_prey)
     order = np.argsort(key, axis=-1, kind="stable")
-    p_sorted = np.where(np.take_along_axis(attacked, order, -1), encounter_prob[order], 0.0)
+    p = np.broadcast_to(encounter_prob[..., None, None, :] if encounter_prob.ndim > 1
+                        else encounter_prob, priority.shape)
+    p_sorted = np.where(np.take_along_axis(attacked, order, -1),
+                        np.take_along_axis(p, order, -1), 0.0)
     survive = np.cumprod(1.0 - p_sorted, axis=-1)
     before = np.concatenate([np.ones_like(survive[..., :1]), survive[..., :-1]], axis=-1)
     out = np.empty_like(p_sorted)
@@ -322,8 +375,9 @@ def outcomes(grid: Grid, tg: Targets, attack_prob: np.ndarray) -> list[Outcome]:
 
     Parameters
     ----------
-    attack_prob : ndarray, shape (2, m, P)
-        Chance that each prey is the one attacked, from each living state.
+    attack_prob : ndarray, shape (*B, 2, m, P)
+        Chance that each prey is the one attacked, from each living state
+        (with leading batch axes for a stacked grid).
 
     Returns
     -------
@@ -331,21 +385,26 @@ def outcomes(grid: Grid, tg: Targets, attack_prob: np.ndarray) -> list[Outcome]:
         The quiet day (no attack, or a failed attack without injury), the
         captures and the injuries.
     """
-    alive = (1.0 - grid.mortality)[:, None, None]
-    s = grid.capture[:, None, :]
-    q, f = grid.injury_chance, grid.fatality
+    alive = (1.0 - grid.mortality)[..., :, None, None]
+    s = grid.capture[..., :, None, :]
+    q, f = grid.injury_chance[..., None, None, :], grid.fatality[..., None, None, :]
     quiet_attacks = (attack_prob * (1 - f) * (1 - s) * (1 - q)).sum(-1, keepdims=True)
     quiet = alive * (1.0 - attack_prob.sum(-1, keepdims=True) + quiet_attacks)
+    batch = attack_prob.shape[:-3]
     m, n_prey = grid.n_living, grid.n_prey
-    healthy_quiet = np.empty((2, m, 1))
-    healthy_quiet[0], healthy_quiet[1] = 1.0, tg.recover_stay
-    healthy_capture = np.empty((2, m, n_prey))
-    healthy_capture[0], healthy_capture[1] = 1.0, tg.recover_capture
+    r = np.asarray(tg.recover_stay, dtype=float)
+    healthy_quiet = np.empty((*batch, 2, m, 1))
+    healthy_quiet[..., 0, :, :] = 1.0
+    healthy_quiet[..., 1, :, :] = r[..., None, None] if r.ndim else r
+    healthy_capture = np.empty((*batch, 2, m, n_prey))
+    healthy_capture[..., 0, :, :] = 1.0
+    healthy_capture[..., 1, :, :] = tg.recover_capture[..., None, :]
     stay = Split(tg.stay.low[..., None], tg.stay.weight[..., None])
+    survive = tg.survive_handling[..., :, None, :]
     return [
         Outcome(quiet, stay, healthy_quiet, np.array([-1]), False, np.array([1.0])),
-        Outcome(alive * attack_prob * (1 - f) * s * tg.survive_handling[:, None, :],
-                tg.capture, healthy_capture, np.arange(n_prey), True, 1.0 + grid.handling),
+        Outcome(alive * attack_prob * (1 - f) * s * survive, tg.capture, healthy_capture,
+                np.arange(n_prey), True, 1.0 + grid.handling),
         Outcome(alive * attack_prob * (1 - f) * (1 - s) * q, tg.injury,
-                np.zeros((2, m, n_prey)), np.arange(n_prey), False, np.ones(n_prey)),
+                np.zeros((*batch, 2, m, n_prey)), np.arange(n_prey), False, np.ones(n_prey)),
     ]

@@ -151,57 +151,60 @@ class Solution:
         return src[:, grid.living, :]
 
 
-def _interp(v: np.ndarray, low: np.ndarray, weight: np.ndarray) -> np.ndarray:
-    return (1.0 - weight) * v[low] + weight * v[low + 1]
-
-
 def _cap_interp(v_cap: np.ndarray, cond: int, s: Split) -> np.ndarray:
-    """Interpolate per-prey value rows ``v_cap[i, cond]`` at capture splits (…, P)."""
-    prey = np.arange(v_cap.shape[0])
-    return ((1.0 - s.weight) * v_cap[prey, cond, s.low]
-            + s.weight * v_cap[prey, cond, s.low + 1])
+    """Interpolate per-prey value rows ``v_cap[..., i, cond, :]`` at capture splits (…, m, P)."""
+    rows = v_cap[..., cond, :]                                  # (*B, P, L)
+    low = np.swapaxes(s.low, -1, -2)                            # (*B, P, m)
+    w = np.swapaxes(s.weight, -1, -2)
+    vals = ((1.0 - w) * np.take_along_axis(rows, low, -1)
+            + w * np.take_along_axis(rows, low + 1, -1))
+    return np.swapaxes(vals, -1, -2)
 
 
 def step_values(grid: Grid, tg: Targets, v_stay: np.ndarray, v_cap: np.ndarray
                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Values of ignoring and of attacking each prey, from every living state.
 
+    Works on one grid or on a stacked batch of grids (leading batch axes *B on
+    every per-cell array, see :func:`riskdiet.grid.stack_grids`).
+
     Parameters
     ----------
-    v_stay : ndarray, shape (2, top + 1)
+    v_stay : ndarray, shape (*B, 2, top + 1)
         Value at the end of a one-day step.
-    v_cap : ndarray, shape (P, 2, top + 1)
+    v_cap : ndarray, shape (*B, P, 2, top + 1)
         Value at the end of a capture step of each prey (differs by prey only
         in the season currency, where handling moves the clock).
 
     Returns
     -------
-    ignore : ndarray, shape (2, m)
+    ignore : ndarray, shape (*B, 2, m)
         G = W_k(j - c_k; 1).
-    attack : ndarray, shape (2, m, P)
+    attack : ndarray, shape (*B, 2, m, P)
         A_i of MODEL.md section 3.
-    d_attack_d_success : ndarray, shape (2, m, P)
+    d_attack_d_success : ndarray, shape (*B, 2, m, P)
         dA_i / ds_i^k at fixed values.
     """
-    r = tg.recover_stay
-    low, w = tg.stay.low, tg.stay.weight
-    ignore = np.empty(low.shape)
-    ignore[0] = _interp(v_stay[0], low[0], w[0])
-    ignore[1] = r * _interp(v_stay[0], low[1], w[1]) + (1 - r) * _interp(v_stay[1], low[1], w[1])
+    r = np.asarray(tg.recover_stay, dtype=float)[..., None]
+    stay = tg.stay
+    healthy_now = Split(stay.low[..., 0, :], stay.weight[..., 0, :]).value(v_stay[..., 0, :])
+    injured_split = Split(stay.low[..., 1, :], stay.weight[..., 1, :])
+    injured_now = (r * injured_split.value(v_stay[..., 0, :])
+                   + (1 - r) * injured_split.value(v_stay[..., 1, :]))
+    ignore = np.stack([healthy_now, injured_now], axis=-2)
 
     cap = tg.capture
-    won = np.empty(cap.low.shape)
-    won[0] = _cap_interp(v_cap, 0, Split(cap.low[0], cap.weight[0]))
-    rc = tg.recover_capture
-    c1 = Split(cap.low[1], cap.weight[1])
-    won[1] = rc * _cap_interp(v_cap, 0, c1) + (1 - rc) * _cap_interp(v_cap, 1, c1)
+    won_h = _cap_interp(v_cap, 0, Split(cap.low[..., 0, :, :], cap.weight[..., 0, :, :]))
+    rc = tg.recover_capture[..., None, :]
+    c1 = Split(cap.low[..., 1, :, :], cap.weight[..., 1, :, :])
+    won_i = rc * _cap_interp(v_cap, 0, c1) + (1 - rc) * _cap_interp(v_cap, 1, c1)
+    won = np.stack([won_h, won_i], axis=-3)
 
-    inj = tg.injury
-    hurt = _interp(v_stay[1], inj.low, inj.weight)
+    hurt = tg.injury.value(v_stay[..., 1, :])
 
-    q, f = grid.injury_chance, grid.fatality
-    s = grid.capture[:, None, :]
-    won_net = tg.survive_handling[:, None, :] * won
+    q, f = grid.injury_chance[..., None, None, :], grid.fatality[..., None, None, :]
+    s = grid.capture[..., :, None, :]
+    won_net = tg.survive_handling[..., :, None, :] * won
     failed = q * hurt + (1 - q) * ignore[..., None]
     attack = (1 - f) * (s * won_net + (1 - s) * failed)
     return ignore, attack, (1 - f) * (won_net - failed)
@@ -209,7 +212,7 @@ def step_values(grid: Grid, tg: Targets, v_stay: np.ndarray, v_cap: np.ndarray
 
 def _bellman(grid: Grid, ignore: np.ndarray, attack: np.ndarray,
              attack_prob: np.ndarray) -> np.ndarray:
-    alive = (1.0 - grid.mortality)[:, None]
+    alive = (1.0 - grid.mortality)[..., :, None]
     return alive * (ignore + (attack_prob * (attack - ignore[..., None])).sum(-1))
 
 
