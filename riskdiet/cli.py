@@ -178,6 +178,183 @@ def check(study: Path = typer.Argument(..., help=STUDY_HELP)) -> None:
     _stdout().print(check_text(loaded), markup=False, end="")
 
 
+@app.command()
+def brief(
+    study: Path = typer.Argument(..., help=STUDY_HELP),
+    out: Path | None = typer.Option(None, "--out", help="PDF to write (default: the study's "
+                                    "name with -brief.pdf, beside the study)."),
+    paper: str = typer.Option("a4", "--paper", help="Paper size: a4 or letter."),
+    date: str | None = typer.Option(None, "--date", help="Date printed on the brief, "
+                                    "YYYY-MM-DD (default: the study's report_date setting, "
+                                    "else the study file's modification date)."),
+    figures: Path | None = typer.Option(None, "--figures", help="Also write every figure "
+                                        "as PNG (300 dpi) and SVG into this folder."),
+    force: bool = typer.Option(False, "--force", help="Replace existing output files."),
+) -> None:
+    """Write the PDF brief: findings, inputs, decisions, predicted kills, cautions.
+
+    Example: riskdiet brief examples/harrow-vale.xlsx --out harrow-vale-brief.pdf
+    """
+    from riskdiet.analysis import solve as solve_study
+    from riskdiet.io import load_study
+    from riskdiet.io.atomic import check_writable
+    from riskdiet.report.brief import write_brief
+
+    target = out if out is not None else study.with_name(f"{study.stem}-brief.pdf")
+    try:
+        if target.suffix.lower() != ".pdf":
+            raise StudyError([Problem(f"--out {target}", "a file name ending in .pdf",
+                                      f'"{target.suffix or "no ending"}"')])
+        check_writable(target, force, (study,))
+        result = solve_study(load_study(study))
+        written = write_brief(result, target, paper=paper.strip().lower(), date=date,
+                              force=force, figures_dir=figures)
+    except RiskdietError as exc:
+        raise _fail(exc) from None
+    typer.echo(f"wrote {written[0]}")
+    if figures is not None:
+        typer.echo(f"wrote {len(written) - 1} figure files into {figures}")
+
+
+@app.command()
+def demo(
+    out: Path = typer.Option(Path("riskdiet-demo"), "--out", help="Folder to write into."),
+    force: bool = typer.Option(False, "--force", help="Replace files of an earlier demo."),
+) -> None:
+    """Write the invented demo study as a workbook, with its results workbook and brief.
+
+    Example: riskdiet demo --out riskdiet-demo
+    """
+    from riskdiet.demo import write_demo
+
+    try:
+        files = write_demo(out, force)
+    except RiskdietError as exc:
+        raise _fail(exc) from None
+    typer.echo(f"Demo study (invented, illustrative):  {files.workbook}")
+    typer.echo(f"Its results:                          {files.results}")
+    typer.echo(f"Its brief:                            {files.brief}")
+    typer.echo(f"Next: open the brief, then edit the workbook and run "
+               f"riskdiet brief {files.workbook} --force")
+
+
+@app.command("map")
+def map_command(
+    study: Path = typer.Argument(..., help=STUDY_HELP),
+    x: str = typer.Option(..., "--x", help="Horizontal axis TARGET=START:STOP:STEPS; TARGET is "
+                          "a predator field, PREY:FIELD or PREY:encounter_share."),
+    y: str = typer.Option(..., "--y", help="Vertical axis, same form as --x."),
+    scenario: str = typer.Option("baseline", "--scenario", help="Scenario to vary."),
+    out: Path | None = typer.Option(None, "--out", help="Folder for the figures (PNG and SVG) "
+                                    "and map.csv."),
+    gradient: str | None = typer.Option(None, "--gradient", help="Also map the marginal value "
+                                        "of this input (FIELD or PREY:FIELD), policy fixed."),
+    group: str | None = typer.Option(None, "--group", help="Prey group of the kills map "
+                                     "(default: the first group that is not wild)."),
+    workers: int = typer.Option(1, "--workers", min=1, help="Local worker processes."),
+    scheduler: str | None = typer.Option(None, "--scheduler", help="Address of a running Dask "
+                                         "distributed scheduler (needs riskdiet[cluster])."),
+    quiet: bool = typer.Option(False, "--quiet", help="No progress bar."),
+    force: bool = typer.Option(False, "--force", help="Replace existing output files."),
+) -> None:
+    """Map the decision rule, the value of hunting skill and kills over two inputs.
+
+    Example: riskdiet map examples/harrow-vale.xlsx --x "wild boar:encounter_share=0:1:41"
+    --y "hunting_ability=0.2:1.6:41" --out maps/
+    """
+    from riskdiet.io import load_study
+
+    try:
+        loaded = load_study(study)
+        request = _map_request(loaded, x, y, scenario, gradient)
+        chosen = _map_group(loaded, group)
+        result = _run_map(loaded, request, workers, scheduler, quiet)
+        from riskdiet.map_reading import read_map
+        from riskdiet.report.map_figures import default_group
+
+        chosen = chosen or default_group(result)
+        written = []
+        if out is not None:
+            from riskdiet.io.map_files import write_map_files
+
+            written = write_map_files(result, out, chosen, force)
+    except RiskdietError as exc:
+        raise _fail(exc) from None
+    console = _stdout()
+    for line in read_map(result, chosen):
+        console.print(line, markup=False)
+    console.print(f"Largest Bellman residual over the map: {result.max_residual:.1e}",
+                  markup=False)
+    for path in written:
+        typer.echo(f"wrote {path}")
+
+
+def _map_request(study, x: str, y: str, scenario: str, gradient: str | None):
+    from riskdiet.maps import MapRequest, parse_axis, parse_target
+
+    problems = []
+    axes = []
+    for spec, where in ((x, "--x"), (y, "--y")):
+        try:
+            axes.append(parse_axis(spec, study, where))
+        except StudyError as exc:
+            problems += exc.problems
+    if scenario not in {s.name for s in study.scenarios}:
+        problems.append(Problem("--scenario", "a scenario of the study (" + ", ".join(
+            s.name for s in study.scenarios) + ")", f'"{scenario}"'))
+    target = None
+    if gradient:
+        try:
+            target = parse_target(gradient, study, "--gradient")
+        except StudyError as exc:
+            problems += exc.problems
+    if problems:
+        raise StudyError(problems)
+    return MapRequest(scenario, axes[0], axes[1], target)
+
+
+def _map_group(study, group: str | None) -> str | None:
+    if group is None:
+        return None
+    groups = sorted({p.group for p in study.prey})
+    if group not in groups:
+        raise StudyError([Problem("--group", "a prey group of the study (" + ", ".join(groups)
+                                  + ")", f'"{group}"')])
+    return group
+
+
+def _run_map(study, request, workers: int, scheduler: str | None, quiet: bool):
+    import os
+
+    from rich.progress import Progress
+
+    from riskdiet.maps import make_map
+
+    console = Console(stderr=True)
+    silent = quiet or not console.is_interactive or bool(os.environ.get("CI"))
+    with Progress(console=console, disable=silent, transient=True) as bar:
+        task = bar.add_task("solving map rows", total=request.y.steps)
+
+        def progress(done: int, total: int) -> None:
+            bar.update(task, completed=done)
+
+        if scheduler:
+            try:
+                from distributed import Client
+            except ImportError:
+                raise RiskdietError("--scheduler needs Dask distributed: pip install "
+                                    "'riskdiet[cluster]'") from None
+            with Client(scheduler) as client:
+                return make_map(study, request, client.get_executor(),
+                                bands=max(8, 4 * len(client.nthreads())), progress=progress)
+        if workers > 1:
+            from concurrent.futures import ProcessPoolExecutor
+
+            with ProcessPoolExecutor(max_workers=workers) as pool:
+                return make_map(study, request, pool, bands=4 * workers, progress=progress)
+        return make_map(study, request, progress=progress)
+
+
 def main() -> None:
     """Console-script entry point."""
     app()

@@ -301,6 +301,18 @@ class Settings:
         "byte for byte.")
     description: str | None = spec_field(
         kind=TEXT, unit="text", description="One paragraph on what the study is for.")
+    map_x: str | None = spec_field(
+        kind=TEXT, unit="TARGET=START:STOP:STEPS",
+        description="Horizontal axis of a map for the brief, e.g. "
+        "wild boar:encounter_share=0:1:41 (blank: no map).")
+    map_y: str | None = spec_field(
+        kind=TEXT, unit="TARGET=START:STOP:STEPS",
+        description="Vertical axis of the map, e.g. hunting_ability=0.2:1.6:41.")
+    map_scenario: str | None = spec_field(
+        kind=TEXT, unit="text", description="Scenario the map varies (blank: baseline).")
+    map_gradient: str | None = spec_field(
+        kind=TEXT, unit="FIELD or PREY:FIELD",
+        description="A further input whose marginal value the map shows (optional).")
 
 
 @dataclass(frozen=True)

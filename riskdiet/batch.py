@@ -1,0 +1,264 @@
+"""Many breeding-currency studies of equal shape, solved together.
+
+Map cells and uncertainty draws differ only in their numbers, not in the shape
+of their state space, so their policy iterations run side by side: every
+per-cell array carries a leading batch axis (:func:`riskdiet.grid.stack_grids`),
+each round evaluates all unfinished cells with one batched dense LU
+factorisation (LAPACK through :func:`scipy.linalg.lu_factor`), and a cell
+leaves the batch as soon as its policy repeats. The same factors then give
+the marginal values (envelope theorem) and the long-run kill rates, so every
+cell costs about one factorisation per policy-iteration round.
+
+The equations are those of :mod:`riskdiet.solver` and :mod:`riskdiet.chain`
+(MODEL.md sections 3-5), written once in :mod:`riskdiet.grid` and
+:func:`riskdiet.solver.step_values`; a batch cell equals a single solve.
+
+References
+----------
+.. [1] Puterman, M. L. (1994). Markov Decision Processes. Wiley, ch. 7.
+.. [2] Sherman, J. & Morrison, W. J. (1950). Adjustment of an inverse matrix
+   corresponding to a change in one element of a given matrix. Annals of
+   Mathematical Statistics 21, 124-127.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg as sla
+from threadpoolctl import threadpool_limits
+
+from riskdiet.errors import RiskdietError
+from riskdiet.grid import (
+    Grid,
+    Outcome,
+    attack_probabilities,
+    outcomes,
+    rank_attacks,
+    take_cells,
+    targets,
+)
+from riskdiet.solver import MAX_POLICY_ITERATIONS, _bellman, step_values
+
+SUB_BATCH = 64
+"""Cells factorised together: their dense systems (64 x 2m x 2m) stay in cache."""
+
+
+@dataclass(frozen=True)
+class BatchSolution:
+    """Per-cell results of a batch of breeding-currency studies.
+
+    Attributes
+    ----------
+    fitness : ndarray, shape (B, 2, top + 1)
+        V at levels 0..J (0 at level 0, 1 at level J) [probability].
+    priority : ndarray of int8, shape (B, 2, m, P)
+        Optimal ranked attack sets on living levels (-1 = ignored).
+    fitness_at_start : ndarray, shape (B,)
+        V(j0, healthy).
+    marginal_hunting_ability : ndarray, shape (B,)
+        dV(j0, healthy)/da with the policy held fixed.
+    marginal_extra : ndarray or None, shape (B,)
+        dV(j0, healthy)/d(theta) for a further input, policy held fixed.
+    kills_per_day : ndarray, shape (B, P)
+        Long-run kills per predator per day (MODEL.md section 5).
+    residual : ndarray, shape (B,)
+        Bellman residual of each cell.
+    iterations : ndarray of int, shape (B,)
+        Policy-iteration rounds of each cell.
+    """
+
+    fitness: np.ndarray
+    priority: np.ndarray
+    fitness_at_start: np.ndarray
+    marginal_hunting_ability: np.ndarray
+    marginal_extra: np.ndarray | None
+    kills_per_day: np.ndarray
+    residual: np.ndarray
+    iterations: np.ndarray
+
+
+def dense_system(grid: Grid, parts: list[Outcome]) -> tuple[np.ndarray, np.ndarray]:
+    """Batched I - P among living states and the one-step breeding chance.
+
+    States are ordered condition-major (k m + j - 1), as in
+    :func:`riskdiet.solver.transition_matrix`.
+
+    Returns
+    -------
+    system : ndarray, shape (B, 2m, 2m)
+        I - P of each cell.
+    breed : ndarray, shape (B, 2m)
+    """
+    m = grid.n_living
+    size = 2 * m
+    batch = parts[0].prob.shape[0]
+    cell = np.arange(batch)[:, None, None, None]
+    state = (np.arange(2)[:, None] * m + np.arange(m)[None, :])[None, :, :, None]
+    idx, vals, b_idx, b_vals = [], [], [], []
+    for o in parts:
+        row = np.broadcast_to(cell * size + state, o.prob.shape)
+        for level, wt in ((o.split.low, 1.0 - o.split.weight),
+                          (o.split.low + 1, o.split.weight)):
+            level = np.broadcast_to(level, o.prob.shape)
+            alive = (level >= 1) & (level < grid.top)
+            top = level >= grid.top
+            for cond, share in ((0, o.healthy_share), (1, 1.0 - o.healthy_share)):
+                val = o.prob * wt * share
+                idx.append((row * size + cond * m + level - 1)[alive])
+                vals.append(val[alive])
+                b_idx.append(row[top])
+                b_vals.append(val[top])
+    chain = np.bincount(np.concatenate(idx), np.concatenate(vals),
+                        minlength=batch * size * size).reshape(batch, size, size)
+    breed = np.bincount(np.concatenate(b_idx), np.concatenate(b_vals),
+                        minlength=batch * size).reshape(batch, size)
+    chain *= -1.0
+    chain.reshape(batch, size * size)[:, :: size + 1] += 1.0
+    return chain, breed
+
+
+def kill_probabilities(grid: Grid, attack_prob: np.ndarray) -> np.ndarray:
+    """P(kill i | s) = (1 - mu_k) P_i (1 - f_i) s_i^k, batched (MODEL.md section 5)."""
+    alive = (1.0 - grid.mortality)[..., :, None, None]
+    return (alive * attack_prob * (1.0 - grid.fatality)[..., None, None, :]
+            * grid.capture[..., :, None, :])
+
+
+def solve_breeding_batch(grid: Grid, initial_values: np.ndarray | None = None,
+                         extra_direct=None,
+                         max_iterations: int = MAX_POLICY_ITERATIONS) -> BatchSolution:
+    """Solve a batch of breeding-currency studies by batched policy iteration.
+
+    Parameters
+    ----------
+    grid : Grid
+        A stacked grid (:func:`riskdiet.grid.stack_grids`), breeding currency.
+    initial_values : ndarray, shape (B, 2, top + 1), optional
+        Values whose greedy policies start the iteration, e.g. the solved
+        fitness of the neighbouring map row: its greedy policy for this cell's
+        own numbers is usually already optimal, so most cells need a single
+        round. By default a linear value ramp, as in the single solver.
+    extra_direct : callable, optional
+        ``extra_direct(index, values, priority) -> (C, 2, m)``: the derivative of
+        the one-step value with respect to a further input at fixed values and
+        policy, for the cells ``index``; its solve gives ``marginal_extra``.
+    max_iterations : int
+        Limit on policy-iteration rounds.
+
+    Returns
+    -------
+    BatchSolution
+    """
+    if grid.currency != "breeding":
+        raise RiskdietError("batched solving covers the breeding currency only")
+    batch = grid.cost.shape[0]
+    pieces = []
+    with threadpool_limits(limits=1):
+        # LAPACK on many small matrices: one thread per process is fastest; the
+        # parallelism comes from running independent chunks in separate workers
+        for lo in range(0, batch, SUB_BATCH):
+            cells = np.arange(lo, min(lo + SUB_BATCH, batch))
+            start = None if initial_values is None else initial_values[cells]
+            extra = (None if extra_direct is None else
+                     (lambda idx, v, p, cells=cells: extra_direct(cells[idx], v, p)))
+            pieces.append(_solve(take_cells(grid, cells), start, extra, max_iterations))
+    if len(pieces) == 1:
+        return pieces[0]
+    return BatchSolution(*(None if getattr(pieces[0], f) is None else
+                           np.concatenate([getattr(p, f) for p in pieces])
+                           for f in BatchSolution.__dataclass_fields__))
+
+
+def _solve(grid, initial_values, extra_direct, max_iterations) -> BatchSolution:
+    batch = grid.cost.shape[0]
+    m, n_prey, top = grid.n_living, grid.n_prey, grid.top
+    tg_all = targets(grid)
+    values = np.zeros((batch, 2, top + 1))
+    values[..., top] = 1.0
+    values[..., 1:top] = np.arange(1, top) / top
+    if initial_values is not None:
+        values[..., 1:top] = np.asarray(initial_values)[..., 1:top]
+    ignore, attack, _ = step_values(grid, tg_all, values,
+                                    np.broadcast_to(values[:, None], (batch, n_prey, 2, top + 1)))
+    priority = rank_attacks(attack, ignore)
+    out_priority = np.empty((batch, 2, m, n_prey), dtype=np.int8)
+    start = np.zeros(batch)
+    marginal = np.zeros(batch)
+    extra = np.zeros(batch) if extra_direct is not None else None
+    kills = np.zeros((batch, n_prey))
+    residual = np.zeros(batch)
+    rounds = np.zeros(batch, dtype=np.int64)
+    active = np.arange(batch)
+    for iteration in range(1, max_iterations + 1):
+        sub = take_cells(grid, active)
+        tg = targets(sub)
+        attack_prob = attack_probabilities(sub.encounter_prob, priority)
+        system, breed = dense_system(sub, outcomes(sub, tg, attack_prob))
+        factors = sla.lu_factor(system, check_finite=False)
+        v = sla.lu_solve(factors, breed[..., None], check_finite=False)[..., 0]
+        values[active, :, 1:top] = v.reshape(-1, 2, m)
+        full = values[active]
+        ignore, attack, d_attack = step_values(
+            sub, tg, full, np.broadcast_to(full[:, None], (len(active), n_prey, 2, top + 1)))
+        improved = rank_attacks(attack, ignore)
+        done = (improved == priority).reshape(len(active), -1).all(axis=1)
+        if iteration == max_iterations:
+            done[:] = True
+        if done.any():
+            cells = active[done]
+            keep = np.flatnonzero(done)
+            rounds[cells] = iteration
+            out_priority[cells] = priority[keep]
+            greedy = attack_probabilities(sub.encounter_prob[keep], improved[keep])
+            residual[cells] = np.abs(
+                _bellman(take_cells(sub, keep), ignore[keep], attack[keep], greedy)
+                - full[keep][..., 1:top]).reshape(len(keep), -1).max(axis=1)
+            part = take_cells(sub, keep)
+            piece = (factors[0][keep], factors[1][keep])
+            start_idx = part.start_level - 1
+            alive = (1.0 - part.mortality)[..., :, None]
+            ap = attack_prob[keep]
+            direct = alive * (ap * d_attack[keep] * part.capture_slope[..., :, None, :]).sum(-1)
+            unit = np.zeros((len(keep), 2 * m, 2))
+            unit[np.arange(len(keep)), start_idx, 0] = 1.0
+            unit[np.arange(len(keep)), part.after_breeding_level - 1, 1] = 1.0
+            rows = sla.lu_solve(piece, unit, trans=1, check_finite=False)
+            from_start, from_restart = rows[..., 0], rows[..., 1]
+            start[cells] = full[keep, 0, part.start_level]
+            marginal[cells] = (from_start * direct.reshape(len(keep), -1)).sum(-1)
+            if extra_direct is not None:
+                d_extra = extra_direct(cells, full[keep], priority[keep])
+                extra[cells] = (from_start * d_extra.reshape(len(keep), -1)).sum(-1)
+            kills[cells] = _kill_rates(part, ap, from_start, from_restart,
+                                       full[keep, 0, part.start_level],
+                                       full[keep, 0, part.after_breeding_level])
+        priority = improved[~done]
+        active = active[~done]
+        if active.size == 0:
+            break
+    return BatchSolution(values, out_priority, start, marginal, extra, kills, residual, rounds)
+
+
+def _kill_rates(grid: Grid, attack_prob: np.ndarray, from_start: np.ndarray,
+                from_restart: np.ndarray, v_start: np.ndarray, v_restart: np.ndarray
+                ) -> np.ndarray:
+    """Long-run kills per day from the visits of one newcomer's life.
+
+    With deaths absorbing and breeding continuing at j_rho, a newcomer's
+    expected visits are x = u + V(j0)/(1 - V(j_rho)) w, where u and w are the
+    rows of (I - P)^-1 for j0 and j_rho (Sherman-Morrison [2]_ applied to the
+    breeding reset). Normalised, x is the stationary distribution of the chain
+    with both resets (renewal-reward), so kills per day = x.kill / x.days. When
+    the predator cannot die (V(j_rho) = 1) the long run is the cycle between
+    breedings, whose visits are w.
+    """
+    kill = kill_probabilities(grid, attack_prob).reshape(attack_prob.shape[0], -1,
+                                                         grid.n_prey)
+    days = 1.0 + (kill * grid.handling[:, None, :]).sum(-1)
+    forever = v_restart >= 1.0 - 1e-12
+    scale = np.where(forever, 0.0, v_start / np.where(forever, 1.0, 1.0 - v_restart))
+    visits = np.where(forever[:, None], from_restart, from_start + scale[:, None] * from_restart)
+    per_step = np.einsum("bs,bsp->bp", visits, kill)
+    return per_step / (visits * days).sum(-1)[:, None]

@@ -1,0 +1,539 @@
+"""Maps over two inputs: where the decision rule changes, and what hunting skill is worth.
+
+A map varies two inputs of one scenario over a grid of values and solves every
+cell. Axes are a numeric predator field (``hunting_ability``), a numeric prey
+field (``PREY:FIELD``, e.g. ``upland ewe:density_per_km2``) or a prey's share of
+all expected encounters (``PREY:encounter_share``: the others are rescaled in
+proportion so that the total stays fixed).
+
+Work is split into bands of map rows. Within a band the rows are solved one
+after another, each row's cells together (:mod:`riskdiet.batch`), starting
+from the policies of the row before; bands are independent and run through any
+:class:`concurrent.futures.Executor` (a local process pool, or a Dask
+cluster's executor).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import itertools
+import math
+from collections.abc import Callable
+from concurrent.futures import Executor
+from dataclasses import dataclass
+
+import numpy as np
+
+from riskdiet.errors import Problem, StudyError, describe
+from riskdiet.fields import INTEGER, field_specs
+from riskdiet.grid import Grid, make_grid, shape_key, stack_grids, targets
+from riskdiet.model import BASELINE, Predator, Prey, Study, check_values, round_half_up
+from riskdiet.regimes import classify
+from riskdiet.solver import _bellman, step_values
+
+SHARE = "encounter_share"
+DAYS_PER_YEAR = 365.0
+
+
+@dataclass(frozen=True)
+class Axis:
+    """One map axis.
+
+    Attributes
+    ----------
+    prey : str or None
+        Prey name, or None for a predator field.
+    field : str
+        Field name, or ``encounter_share``.
+    start, stop : float
+        First and last value.
+    steps : int
+        Number of values (≥ 2), evenly spaced.
+    """
+
+    prey: str | None
+    field: str
+    start: float
+    stop: float
+    steps: int
+
+    @property
+    def values(self) -> np.ndarray:
+        return np.linspace(self.start, self.stop, self.steps)
+
+    @property
+    def target(self) -> str:
+        return f"{self.prey}:{self.field}" if self.prey else self.field
+
+    @property
+    def label(self) -> str:
+        if self.field == SHARE:
+            return f"{self.prey}: share of all encounters"
+        spec = field_specs(Prey if self.prey else Predator)[self.field]
+        unit = f" [{spec.unit}]" if spec.unit not in ("text", "ratio", "count") else ""
+        return f"{self.prey + ': ' if self.prey else ''}{self.field}{unit}"
+
+
+def parse_target(target: str, study: Study, where: str, numeric_only: bool = True
+                 ) -> tuple[str | None, str]:
+    """Resolve ``FIELD`` or ``PREY:FIELD`` against a study, or raise a located problem."""
+    target = target.strip()
+    names = {p.name.lower(): p.name for p in study.prey}
+    if ":" in target:
+        prey_text, field = (s.strip() for s in target.rsplit(":", 1))
+        prey = names.get(prey_text.lower())
+        if prey is None:
+            raise StudyError([Problem(where, "a prey name of the study ("
+                                      + ", ".join(p.name for p in study.prey) + ")",
+                                      describe(prey_text))])
+        field = field.lower()
+        if field == SHARE:
+            return prey, field
+        specs = field_specs(Prey)
+    else:
+        prey, field, specs = None, target.lower(), field_specs(Predator)
+    numeric = [f for f, s in specs.items() if s.numeric]
+    if field not in specs:
+        raise StudyError([Problem(where, f"a {'prey' if prey else 'predator'} field ("
+                                  + ", ".join(numeric + ([SHARE] if prey else [])) + ")",
+                                  describe(field))])
+    if numeric_only and not specs[field].numeric:
+        raise StudyError([Problem(where, "a numeric field (" + ", ".join(numeric) + ")",
+                                  f'the {specs[field].kind} field "{field}"')])
+    return prey, field
+
+
+def parse_axis(spec: str, study: Study, where: str) -> Axis:
+    """Parse ``TARGET=START:STOP:STEPS`` (e.g. ``hunting_ability=0.2:1.6:41``).
+
+    Raises
+    ------
+    StudyError
+        Naming the option (``where``), what was expected and what was found.
+    """
+    if "=" not in spec:
+        raise StudyError([Problem(where, "TARGET=START:STOP:STEPS, e.g. "
+                                  "hunting_ability=0.2:1.6:41", describe(spec))])
+    target, numbers = spec.rsplit("=", 1)
+    prey, field = parse_target(target, study, where)
+    parts = numbers.split(":")
+    if len(parts) != 3:
+        raise StudyError([Problem(where, "three numbers START:STOP:STEPS after '='",
+                                  describe(numbers))])
+    try:
+        start, stop = float(parts[0]), float(parts[1])
+    except ValueError:
+        raise StudyError([Problem(where, "numbers for START and STOP",
+                                  describe(numbers))]) from None
+    try:
+        steps = int(parts[2])
+    except ValueError:
+        steps = -1
+    problems = []
+    if steps < 2:
+        problems.append(Problem(where, "a whole number of steps ≥ 2", describe(parts[2])))
+    if start == stop or not (math.isfinite(start) and math.isfinite(stop)):
+        problems.append(Problem(where, "different finite START and STOP",
+                                f"{parts[0]} and {parts[1]}"))
+    if field == SHARE and not (0 <= min(start, stop) and max(start, stop) <= 1):
+        problems.append(Problem(where, "shares from 0 to 1", f"{start:g} to {stop:g}"))
+    if problems:
+        raise StudyError(problems)
+    return Axis(prey, field, start, stop, steps)
+
+
+def apply_axis(predator: Predator, prey: tuple[Prey, ...], axis: Axis, value: float
+               ) -> tuple[Predator, tuple[Prey, ...]]:
+    """Inputs with one axis set to ``value`` (``set`` semantics)."""
+    if axis.prey is None:
+        spec = field_specs(Predator)[axis.field]
+        v = round_half_up(value) if spec.kind == INTEGER else float(value)
+        return dataclasses.replace(predator, **{axis.field: v}), prey
+    index = next(i for i, p in enumerate(prey) if p.name == axis.prey)
+    if axis.field != SHARE:
+        spec = field_specs(Prey)[axis.field]
+        v = round_half_up(value) if spec.kind == INTEGER else float(value)
+        out = list(prey)
+        out[index] = dataclasses.replace(prey[index], **{axis.field: v})
+        return predator, tuple(out)
+    rates = np.array([p.encounters(predator) for p in prey])
+    total = rates.sum()
+    others = total - rates[index]
+    new = rates * ((1.0 - value) * total / others) if others > 0 else np.zeros_like(rates)
+    new[index] = value * total
+    return predator, tuple(dataclasses.replace(p, encounters_per_day=float(m))
+                           for p, m in zip(prey, new, strict=True))
+
+
+@dataclass(frozen=True)
+class MapRequest:
+    """What to map: a scenario, two axes and optionally a further gradient."""
+
+    scenario: str
+    x: Axis
+    y: Axis
+    gradient: tuple[str | None, str] | None = None
+
+
+def _check_request(study: Study, request: MapRequest) -> None:
+    """Every axis value must give valid inputs (checked along both axes and corners)."""
+    base_pred, base_prey = study.inputs_for(study.scenario(request.scenario))
+    problems: list[Problem] = []
+    if request.x.target == request.y.target:
+        problems.append(Problem("--y", "a different input from --x", describe(request.y.target)))
+    for axis, where in ((request.x, "--x"), (request.y, "--y")):
+        if axis.field == SHARE:
+            rates = [p.encounters(base_pred) for p in base_prey]
+            if sum(rates) == 0:
+                problems.append(Problem(where, "prey that are met at all (total encounters > 0)",
+                                        "no encounters"))
+            elif len(base_prey) == 1 and min(axis.start, axis.stop) < 1:
+                problems.append(Problem(where, "a second prey type to take the other share",
+                                        "only one prey type"))
+    if problems:
+        raise StudyError(problems)
+    combos = [(x, y) for x in (request.x.start, request.x.stop)
+              for y in (request.y.start, request.y.stop)]
+    combos += [(x, request.y.start) for x in request.x.values]
+    combos += [(request.x.start, y) for y in request.y.values]
+    seen = set()
+    for x, y in combos:
+        pred, prey = apply_axis(base_pred, base_prey, request.x, x)
+        pred, prey = apply_axis(pred, prey, request.y, y)
+        found, _ = check_values(pred, prey, lambda f: f"predator.{f}",
+                                lambda i, f, prey=prey: f"{prey[i].name}: {f}")
+        for p in found:
+            key = (p.where, p.expected)
+            if key not in seen:
+                seen.add(key)
+                problems.append(Problem(f"map cell x={x:g}, y={y:g} ({p.where})", p.expected,
+                                        p.found))
+    if problems:
+        raise StudyError(problems)
+
+
+@dataclass(frozen=True)
+class MapResult:
+    """Every cell of a map; arrays have shape (len(y), len(x)).
+
+    Attributes
+    ----------
+    request : MapRequest
+    x, y : ndarray
+        Axis values.
+    regime_healthy, regime_injured : ndarray of str
+        Regime category (MODEL.md section 7) of each cell, without numbers.
+    regime_healthy_detail, regime_injured_detail : ndarray of str
+        The same with the reserve fractions where the attack set changes.
+    fitness_at_start : ndarray
+        V(j0, healthy) [probability].
+    marginal_hunting_ability : ndarray
+        dV/da with the policy held fixed [probability per unit ability].
+    marginal_extra : ndarray or None
+        dV/d(gradient field) with the policy held fixed.
+    kills_per_year : dict of str to ndarray
+        Kills per predator per year by prey group (breeding currency; season
+        currency: kills per predator over the season, columns
+        ``kills_per_season_<group>``).
+    groups : tuple of str
+    max_residual : float
+        Largest Bellman residual over all cells.
+    """
+
+    request: MapRequest
+    x: np.ndarray
+    y: np.ndarray
+    regime_healthy: np.ndarray
+    regime_injured: np.ndarray
+    regime_healthy_detail: np.ndarray
+    regime_injured_detail: np.ndarray
+    fitness_at_start: np.ndarray
+    marginal_hunting_ability: np.ndarray
+    marginal_extra: np.ndarray | None
+    kills_per_year: dict[str, np.ndarray]
+    groups: tuple[str, ...]
+    max_residual: float
+    currency: str
+
+    @property
+    def gradient_column(self) -> str | None:
+        if self.request.gradient is None:
+            return None
+        prey, field = self.request.gradient
+        return f"marginal_{(prey + ':') if prey else ''}{field}"
+
+    def columns(self) -> list[str]:
+        cols = ["x", "y", "regime_healthy", "regime_injured", "regime_healthy_detail",
+                "regime_injured_detail", "fitness_at_start", "marginal_hunting_ability"]
+        if self.marginal_extra is not None:
+            cols.append(self.gradient_column)
+        per = "year" if self.currency == "breeding" else "season"
+        cols += [f"kills_per_{per}_{g}" for g in self.groups]
+        return cols
+
+    def rows(self) -> list[list]:
+        """One row per cell (x varies fastest), in the order of :meth:`columns`."""
+        out = []
+        for iy, yv in enumerate(self.y):
+            for ix, xv in enumerate(self.x):
+                row = [float(xv), float(yv), str(self.regime_healthy[iy, ix]),
+                       str(self.regime_injured[iy, ix]),
+                       str(self.regime_healthy_detail[iy, ix]),
+                       str(self.regime_injured_detail[iy, ix]),
+                       float(self.fitness_at_start[iy, ix]),
+                       float(self.marginal_hunting_ability[iy, ix])]
+                if self.marginal_extra is not None:
+                    row.append(float(self.marginal_extra[iy, ix]))
+                row += [float(self.kills_per_year[g][iy, ix]) for g in self.groups]
+                out.append(row)
+        return out
+
+
+def cell_inputs(study: Study, request: MapRequest, x: float, y: float,
+                base: tuple[Predator, tuple[Prey, ...]] | None = None
+                ) -> tuple[Predator, tuple[Prey, ...]]:
+    """Inputs of one map cell (``base``: the scenario's inputs, if already known)."""
+    pred, prey = base or study.inputs_for(study.scenario(request.scenario))
+    pred, prey = apply_axis(pred, prey, request.x, x)
+    return apply_axis(pred, prey, request.y, y)
+
+
+def _gradient_inputs(pred: Predator, prey: tuple[Prey, ...], target: tuple[str | None, str],
+                     sign: float) -> tuple[tuple[Predator, tuple[Prey, ...]], float]:
+    prey_name, field = target
+    if prey_name is None:
+        value = getattr(pred, field)
+        if value is None and field == "daily_cost_mj":
+            value = pred.effective_daily_cost_mj
+    else:
+        rec = next(p for p in prey if p.name == prey_name)
+        value = getattr(rec, field)
+        if value is None and field == "encounters_per_day":
+            value = rec.encounters(pred)
+    value = float(value or 0.0)
+    step = 1e-6 * max(1.0, abs(value))
+    axis = Axis(prey_name, field, 0.0, 1.0, 2)
+    return apply_axis(pred, prey, axis, value + sign * step), step
+
+
+def _policy_fixed_step(grid: Grid, values: np.ndarray, priority: np.ndarray) -> np.ndarray:
+    """One Bellman step under a fixed policy, batched: T_pi(V), shape (B, 2, m)."""
+    from riskdiet.grid import attack_probabilities
+
+    tg = targets(grid)
+    n_prey = grid.n_prey
+    ignore, attack, _ = step_values(grid, tg, values,
+                                    np.broadcast_to(values[:, None],
+                                                    (values.shape[0], n_prey, *values.shape[1:])))
+    return _bellman(grid, ignore, attack, attack_probabilities(grid.encounter_prob, priority))
+
+
+def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
+               ) -> tuple[dict, dict]:
+    """Solve one map row; returns per-cell results and the policies for the next row."""
+    from riskdiet.batch import solve_breeding_batch
+
+    nx = request.x.steps
+    y = request.y.values[iy]
+    base = study.inputs_for(study.scenario(request.scenario))
+    inputs = [cell_inputs(study, request, x, y, base) for x in request.x.values]
+    grids = [make_grid(p, q) for p, q in inputs]
+    out = {k: [None] * nx for k in ("fitness", "marginal", "extra", "kills", "regime_h",
+                                    "regime_i", "detail_h", "detail_i", "residual")}
+    policies: dict = {}
+    groups: dict[tuple, list[int]] = {}
+    for ix, g in enumerate(grids):
+        groups.setdefault(shape_key(g), []).append(ix)
+    for key, cells in groups.items():
+        batch = stack_grids([grids[i] for i in cells])
+        if key[0] == "breeding":
+            start = None
+            if warm is not None and key in warm and len(warm[key]) == len(cells):
+                start = warm[key]
+            extra = None
+            if request.gradient is not None:
+                shifted = [(_gradient_inputs(*inputs[i], request.gradient, +1),
+                            _gradient_inputs(*inputs[i], request.gradient, -1)) for i in cells]
+                gp = stack_grids([make_grid(*hi[0]) for hi, _ in shifted])
+                gm = stack_grids([make_grid(*lo[0]) for _, lo in shifted])
+                steps = np.array([hi[1] for hi, _ in shifted])
+
+                def extra(idx, values, priority, gp=gp, gm=gm, steps=steps):
+                    from riskdiet.grid import take_cells
+
+                    hi = _policy_fixed_step(take_cells(gp, idx), values, priority)
+                    lo = _policy_fixed_step(take_cells(gm, idx), values, priority)
+                    return (hi - lo) / (2.0 * steps[idx])[:, None, None]
+            sol = solve_breeding_batch(batch, start, extra)
+            policies[key] = sol.fitness
+            kills = sol.kills_per_day * DAYS_PER_YEAR
+            for n, i in enumerate(cells):
+                out["fitness"][i] = sol.fitness_at_start[n]
+                out["marginal"][i] = sol.marginal_hunting_ability[n]
+                out["extra"][i] = None if sol.marginal_extra is None else sol.marginal_extra[n]
+                out["kills"][i] = kills[n]
+                out["residual"][i] = sol.residual[n]
+                _regimes(out, i, sol.priority[n] >= 0, inputs[i][1], grids[i])
+        else:
+            from riskdiet.chain import season_outlook
+            from riskdiet.solver import solve_season
+
+            for i in cells:
+                sol = solve_season(grids[i])
+                out["fitness"][i] = sol.fitness_at_start
+                out["marginal"][i] = sol.marginal_hunting_ability
+                out["extra"][i] = (None if request.gradient is None else
+                                   _season_gradient(inputs[i], request.gradient))
+                out["kills"][i] = season_outlook(grids[i], sol).expected_kills
+                out["residual"][i] = sol.residual
+                _regimes(out, i, sol.living_priority(grids[i]) >= 0, inputs[i][1], grids[i])
+    out["groups"] = [[p.group for p in inputs[i][1]] for i in range(nx)]
+    return out, policies
+
+
+def _season_gradient(inputs, target) -> float:
+    """Season currency: central difference with the policy of every day held fixed."""
+    from riskdiet.solver import solve_season
+
+    (plus, step), (minus, _) = (_gradient_inputs(*inputs, target, +1),
+                                _gradient_inputs(*inputs, target, -1))
+    base = solve_season(make_grid(*inputs))
+    return (_fixed_season_value(make_grid(*plus), base)
+            - _fixed_season_value(make_grid(*minus), base)) / (2 * step)
+
+
+def _fixed_season_value(grid: Grid, base) -> float:
+    """Season fitness at start of ``grid`` under the day-by-day policy of ``base``."""
+    from riskdiet.grid import attack_probabilities
+
+    tg = targets(grid)
+    days = grid.season_days
+    values = np.zeros((days + 1, 2, grid.n + 1))
+    values[days, :, grid.terminal_level:] = 1.0
+    handling = grid.handling.astype(np.intp)
+    for t in range(days - 1, -1, -1):
+        cap_day = np.minimum(t + 1 + handling, days)
+        ignore, attack, _ = step_values(grid, tg, values[t + 1], values[cap_day])
+        prob = attack_probabilities(grid.encounter_prob,
+                                    base.priority_by_day[t][:, 1:].astype(np.int64))
+        values[t, :, 1:] = _bellman(grid, ignore, attack, prob)
+    return float(values[0, 0, grid.start_level])
+
+
+def _regimes(out: dict, i: int, attacked: np.ndarray, prey: tuple[Prey, ...],
+             grid: Grid) -> None:
+    risky = np.array([p.risky for p in prey])
+    names = [p.name for p in prey]
+    fractions = grid.living / grid.n
+    for k, (cat, det) in enumerate((("regime_h", "detail_h"), ("regime_i", "detail_i"))):
+        r = classify(attacked[k], risky, names, fractions)
+        out[cat][i], out[det][i] = r.category, r.detail
+
+
+def _solve_band(study: Study, request: MapRequest, rows: list[int]) -> list[tuple[int, dict]]:
+    """Solve consecutive map rows, each warm-started from the row before."""
+    warm = None
+    results = []
+    for iy in rows:
+        out, warm = _solve_row(study, request, iy, warm)
+        results.append((iy, out))
+    return results
+
+
+def make_map(study: Study, request: MapRequest, executor: Executor | None = None,
+             bands: int | None = None, progress: Callable[[int, int], None] | None = None
+             ) -> MapResult:
+    """Solve every cell of a map.
+
+    Parameters
+    ----------
+    study : Study
+    request : MapRequest
+    executor : concurrent.futures.Executor, optional
+        Runs bands of rows in parallel; inline when None.
+    bands : int, optional
+        Number of independent bands of rows (default: 1 inline, else 4 per
+        worker-ish, at least 2 rows each).
+    progress : callable, optional
+        ``progress(done_rows, total_rows)`` after each band.
+    """
+    _check_request(study, request)
+    ny = request.y.steps
+    if bands is None:
+        bands = 1 if executor is None else min(ny, 8)
+    bands = max(1, min(bands, ny))
+    edges = np.linspace(0, ny, bands + 1).round().astype(int)
+    chunks = [list(range(a, b)) for a, b in itertools.pairwise(edges) if b > a]
+    rows: dict[int, dict] = {}
+    done = 0
+    if executor is None:
+        for chunk in chunks:
+            for iy, out in _solve_band(study, request, chunk):
+                rows[iy] = out
+            done += len(chunk)
+            if progress:
+                progress(done, ny)
+    else:
+        from concurrent.futures import as_completed
+
+        futures = {executor.submit(_solve_band, study, request, c): c for c in chunks}
+        for fut in as_completed(futures):
+            for iy, out in fut.result():
+                rows[iy] = out
+            done += len(futures[fut])
+            if progress:
+                progress(done, ny)
+    return _assemble(study, request, rows)
+
+
+def _assemble(study: Study, request: MapRequest, rows: dict[int, dict]) -> MapResult:
+    ny, nx = request.y.steps, request.x.steps
+    pred, prey = study.inputs_for(study.scenario(request.scenario))
+    groups: list[str] = []
+    for p in prey:
+        if p.group not in groups:
+            groups.append(p.group)
+
+    def grid_of(key, dtype=float):
+        return np.array([[rows[iy][key][ix] for ix in range(nx)] for iy in range(ny)],
+                        dtype=dtype)
+
+    kills = {g: np.zeros((ny, nx)) for g in groups}
+    for iy in range(ny):
+        for ix in range(nx):
+            for g, k in zip(rows[iy]["groups"][ix], rows[iy]["kills"][ix], strict=True):
+                kills[g][iy, ix] += k
+    extra = None
+    if request.gradient is not None:
+        extra = grid_of("extra")
+    return MapResult(
+        request=request,
+        x=request.x.values,
+        y=request.y.values,
+        regime_healthy=grid_of("regime_h", object).astype(str),
+        regime_injured=grid_of("regime_i", object).astype(str),
+        regime_healthy_detail=grid_of("detail_h", object).astype(str),
+        regime_injured_detail=grid_of("detail_i", object).astype(str),
+        fitness_at_start=grid_of("fitness"),
+        marginal_hunting_ability=grid_of("marginal"),
+        marginal_extra=extra,
+        kills_per_year=kills,
+        groups=tuple(groups),
+        max_residual=float(grid_of("residual").max()),
+        currency=pred.currency,
+    )
+
+
+def request_from_settings(study: Study) -> MapRequest | None:
+    """The map asked for in the study's settings (``map_x``, ``map_y``...), if any."""
+    s = study.settings
+    if not (s.map_x and s.map_y):
+        return None
+    scenario = s.map_scenario or BASELINE
+    if scenario not in {sc.name for sc in study.scenarios}:
+        raise StudyError([Problem("settings.map_scenario", "a scenario of the study",
+                                  describe(scenario))])
+    gradient = parse_target(s.map_gradient, study, "settings.map_gradient") \
+        if s.map_gradient else None
+    return MapRequest(scenario, parse_axis(s.map_x, study, "settings.map_x"),
+                      parse_axis(s.map_y, study, "settings.map_y"), gradient)
