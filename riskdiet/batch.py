@@ -104,19 +104,21 @@ def dense_system(grid: Grid, parts: list[Outcome]) -> tuple[np.ndarray, np.ndarr
             level = np.broadcast_to(level, o.prob.shape)
             alive = (level >= 1) & (level < grid.top)
             top = level >= grid.top
-            for cond, share in ((0, o.healthy_share), (1, 1.0 - o.healthy_share)):
-                val = o.prob * wt * share
-                idx.append((row * size + cond * m + level - 1)[alive])
+            col = (row * size + level - 1)[alive]
+            mass = o.prob * wt
+            healthy = mass * o.healthy_share
+            for cond, val in ((0, healthy), (1, mass - healthy)):
+                idx.append(col + cond * m)
                 vals.append(val[alive])
-                b_idx.append(row[top])
-                b_vals.append(val[top])
-    chain = np.bincount(np.concatenate(idx), np.concatenate(vals),
-                        minlength=batch * size * size).reshape(batch, size, size)
+            b_idx.append(row[top])
+            b_vals.append(mass[top])
+    # minus the chain directly, then the identity: one pass over the dense arrays
+    system = np.bincount(np.concatenate(idx), -np.concatenate(vals),
+                         minlength=batch * size * size).reshape(batch, size, size)
+    system.reshape(batch, size * size)[:, :: size + 1] += 1.0
     breed = np.bincount(np.concatenate(b_idx), np.concatenate(b_vals),
                         minlength=batch * size).reshape(batch, size)
-    chain *= -1.0
-    chain.reshape(batch, size * size)[:, :: size + 1] += 1.0
-    return chain, breed
+    return system, breed
 
 
 def kill_probabilities(grid: Grid, attack_prob: np.ndarray) -> np.ndarray:
@@ -196,7 +198,7 @@ def _solve(grid, initial_values, extra_direct, max_iterations) -> BatchSolution:
         tg = targets(sub)
         attack_prob = attack_probabilities(sub.encounter_prob, priority)
         system, breed = dense_system(sub, outcomes(sub, tg, attack_prob))
-        factors = sla.lu_factor(system, check_finite=False)
+        factors = sla.lu_factor(system, overwrite_a=True, check_finite=False)
         v = sla.lu_solve(factors, breed[..., None], check_finite=False)[..., 0]
         values[active, :, 1:top] = v.reshape(-1, 2, m)
         full = values[active]

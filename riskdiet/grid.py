@@ -131,42 +131,67 @@ def capture_success(base: np.ndarray, skill: np.ndarray, ability: float,
 
 def make_grid(predator: Predator, prey: tuple[Prey, ...]) -> Grid:
     """Discretise a validated predator and its prey (MODEL.md section 2)."""
-    n = predator.energy_levels
-    step = predator.reserve_capacity_mj / n
-    cost = predator.effective_daily_cost_mj
-    season = predator.currency == "season"
-    top = n if season else predator.breeding_level
-    living = np.arange(1, n + 1) if season else np.arange(1, top)
-    handling = np.array([p.handling_days for p in prey], dtype=float)
+    batched = make_grids([(predator, prey)])
+    return dataclasses.replace(batched, **{name: getattr(batched, name)[0] for name in PER_CELL})
+
+
+def make_grids(cells: list[tuple[Predator, tuple[Prey, ...]]]) -> Grid:
+    """Discretise many cells of equal shape at once: a stacked grid (leading axis = cell).
+
+    Equivalent to :func:`stack_grids` of :func:`make_grid` for each cell, with
+    one pass over the inputs instead of one small array per field and cell.
+    """
+    preds = [c[0] for c in cells]
+    first = preds[0]
+    n = first.energy_levels
+    season = first.currency == "season"
+    top = n if season else first.breeding_level
+    keys = {(p.currency, p.energy_levels, n if season else p.breeding_level, len(c[1]))
+            for p, c in zip(preds, cells, strict=True)}
+    if len(keys) > 1:
+        raise ValueError("cells of different shape cannot share a grid")
+
+    def per_cell(f) -> np.ndarray:
+        return np.array([f(p) for p in preds], dtype=float)
+
+    def per_prey(f) -> np.ndarray:
+        return np.array([[f(q, p) for q in c[1]] for p, c in zip(preds, cells, strict=True)],
+                        dtype=float)
+
+    step = per_cell(lambda p: p.reserve_capacity_mj / p.energy_levels)
+    cost = per_cell(lambda p: p.effective_daily_cost_mj)
+    handling = per_prey(lambda q, p: q.handling_days)
     if season:
         handling = np.floor(handling + 0.5)
-    base = np.array([p.capture_success for p in prey], dtype=float)
-    skill = np.array([p.is_skill_dependent for p in prey], dtype=bool)
-    success, slope = capture_success(base, skill, predator.hunting_ability,
-                                     predator.injured_capture_factor)
+    skill = per_prey(lambda q, p: q.is_skill_dependent).astype(bool)
+    success, slope = capture_success(per_prey(lambda q, p: q.capture_success), skill,
+                                     per_cell(lambda p: p.hunting_ability),
+                                     per_cell(lambda p: p.injured_capture_factor))
+    mu = per_cell(lambda p: p.background_mortality)
     return Grid(
-        currency=predator.currency,
+        currency=first.currency,
         n=n,
         top=top,
-        living=living,
+        living=np.arange(1, n + 1) if season else np.arange(1, top),
         step_mj=step,
-        cost=np.array([cost, cost + predator.injured_extra_cost_mj]) / step,
-        mortality=np.array([predator.background_mortality,
-                            predator.background_mortality + predator.injured_extra_mortality]),
-        encounter_prob=np.array([p.encounter_probability(predator) for p in prey]),
-        gain=np.array([p.energy_mj for p in prey], dtype=float) / step,
+        cost=np.stack([cost, cost + per_cell(lambda p: p.injured_extra_cost_mj)], -1)
+        / step[:, None],
+        mortality=np.stack([mu, mu + per_cell(lambda p: p.injured_extra_mortality)], -1),
+        encounter_prob=per_prey(lambda q, p: q.encounter_probability(p)),
+        gain=per_prey(lambda q, p: q.energy_mj) / step[:, None],
         handling=handling,
         capture=success,
         capture_slope=slope,
-        injury_chance=np.array([p.injury_chance for p in prey], dtype=float),
-        injury_loss=np.array([p.injury_energy_mj for p in prey], dtype=float) / step,
-        fatality=np.array([p.fatality_chance for p in prey], dtype=float),
-        recovery=predator.recovery_chance_per_day,
-        hunting_ability=predator.hunting_ability,
-        season_days=int(predator.season_days or 0) if season else 0,
-        terminal_level=max(1, round_half_up(predator.season_reserve_threshold * n)),
-        start_level=predator.start_level,
-        after_breeding_level=predator.after_breeding_level,
+        injury_chance=per_prey(lambda q, p: q.injury_chance),
+        injury_loss=per_prey(lambda q, p: q.injury_energy_mj) / step[:, None],
+        fatality=per_prey(lambda q, p: q.fatality_chance),
+        recovery=per_cell(lambda p: p.recovery_chance_per_day),
+        hunting_ability=per_cell(lambda p: p.hunting_ability),
+        season_days=int(first.season_days or 0) if season else 0,
+        terminal_level=np.array([max(1, round_half_up(p.season_reserve_threshold * n))
+                                 for p in preds]),
+        start_level=np.array([p.start_level for p in preds]),
+        after_breeding_level=np.array([p.after_breeding_level for p in preds]),
     )
 
 

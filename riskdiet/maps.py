@@ -26,7 +26,7 @@ import numpy as np
 
 from riskdiet.errors import Problem, StudyError, describe
 from riskdiet.fields import INTEGER, field_specs
-from riskdiet.grid import Grid, make_grid, shape_key, stack_grids, targets
+from riskdiet.grid import Grid, make_grid, make_grids, targets
 from riskdiet.model import BASELINE, Predator, Prey, Study, check_values, round_half_up
 from riskdiet.regimes import classify
 from riskdiet.solver import _bellman, step_values
@@ -330,32 +330,30 @@ def _policy_fixed_step(grid: Grid, values: np.ndarray, priority: np.ndarray) -> 
 
 def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
                ) -> tuple[dict, dict]:
-    """Solve one map row; returns per-cell results and the policies for the next row."""
+    """Solve one map row; returns per-cell results and the fitness history for the next."""
     from riskdiet.batch import solve_breeding_batch
 
     nx = request.x.steps
     y = request.y.values[iy]
     base = study.inputs_for(study.scenario(request.scenario))
     inputs = [cell_inputs(study, request, x, y, base) for x in request.x.values]
-    grids = [make_grid(p, q) for p, q in inputs]
     out = {k: [None] * nx for k in ("fitness", "marginal", "extra", "kills", "regime_h",
                                     "regime_i", "detail_h", "detail_i", "residual")}
     policies: dict = {}
     groups: dict[tuple, list[int]] = {}
-    for ix, g in enumerate(grids):
-        groups.setdefault(shape_key(g), []).append(ix)
+    for ix, (p, q) in enumerate(inputs):
+        key = (p.currency, p.energy_levels, p.breeding_level, len(q), p.season_days)
+        groups.setdefault(key, []).append(ix)
     for key, cells in groups.items():
-        batch = stack_grids([grids[i] for i in cells])
+        batch = make_grids([inputs[i] for i in cells])
         if key[0] == "breeding":
-            start = None
-            if warm is not None and key in warm and len(warm[key]) == len(cells):
-                start = warm[key]
+            start = _extrapolate(warm.get(key, []) if warm else [], len(cells))
             extra = None
             if request.gradient is not None:
                 shifted = [(_gradient_inputs(*inputs[i], request.gradient, +1),
                             _gradient_inputs(*inputs[i], request.gradient, -1)) for i in cells]
-                gp = stack_grids([make_grid(*hi[0]) for hi, _ in shifted])
-                gm = stack_grids([make_grid(*lo[0]) for _, lo in shifted])
+                gp = make_grids([hi[0] for hi, _ in shifted])
+                gm = make_grids([lo[0] for _, lo in shifted])
                 steps = np.array([hi[1] for hi, _ in shifted])
 
                 def extra(idx, values, priority, gp=gp, gm=gm, steps=steps):
@@ -365,7 +363,9 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
                     lo = _policy_fixed_step(take_cells(gm, idx), values, priority)
                     return (hi - lo) / (2.0 * steps[idx])[:, None, None]
             sol = solve_breeding_batch(batch, start, extra)
-            policies[key] = sol.fitness
+            history = (warm.get(key, []) if warm else [])
+            history = [h for h in history if len(h) == len(cells)][-2:]
+            policies[key] = [*history, sol.fitness]
             kills = sol.kills_per_day * DAYS_PER_YEAR
             for n, i in enumerate(cells):
                 out["fitness"][i] = sol.fitness_at_start[n]
@@ -373,22 +373,43 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
                 out["extra"][i] = None if sol.marginal_extra is None else sol.marginal_extra[n]
                 out["kills"][i] = kills[n]
                 out["residual"][i] = sol.residual[n]
-                _regimes(out, i, sol.priority[n] >= 0, inputs[i][1], grids[i])
+                _regimes(out, i, sol.priority[n] >= 0, inputs[i][1], batch)
         else:
             from riskdiet.chain import season_outlook
             from riskdiet.solver import solve_season
 
             for i in cells:
-                sol = solve_season(grids[i])
+                grid = make_grid(*inputs[i])
+                sol = solve_season(grid)
                 out["fitness"][i] = sol.fitness_at_start
                 out["marginal"][i] = sol.marginal_hunting_ability
                 out["extra"][i] = (None if request.gradient is None else
                                    _season_gradient(inputs[i], request.gradient))
-                out["kills"][i] = season_outlook(grids[i], sol).expected_kills
+                out["kills"][i] = season_outlook(grid, sol).expected_kills
                 out["residual"][i] = sol.residual
-                _regimes(out, i, sol.living_priority(grids[i]) >= 0, inputs[i][1], grids[i])
+                _regimes(out, i, sol.living_priority(grid) >= 0, inputs[i][1], grid)
     out["groups"] = [[p.group for p in inputs[i][1]] for i in range(nx)]
     return out, policies
+
+
+def _extrapolate(history: list[np.ndarray], cells: int) -> np.ndarray | None:
+    """Starting values for a row from the rows before it.
+
+    Fitness varies smoothly along the map, so the quadratic extrapolation of the
+    last three rows (linear with two, the row itself with one) is close to this
+    row's fitness; its greedy policy is usually already optimal and most cells
+    then finish in one policy-iteration round.
+    """
+    rows = [h for h in history if len(h) == cells]
+    if not rows:
+        return None
+    if len(rows) == 1:
+        guess = rows[-1]
+    elif len(rows) == 2:
+        guess = 2 * rows[-1] - rows[-2]
+    else:
+        guess = 3 * rows[-1] - 3 * rows[-2] + rows[-3]
+    return np.clip(guess, 0.0, 1.0)
 
 
 def _season_gradient(inputs, target) -> float:
