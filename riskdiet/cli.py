@@ -173,6 +173,9 @@ def check(study: Path = typer.Argument(..., help=STUDY_HELP)) -> None:
 
     try:
         loaded = load_study(study)
+        from riskdiet.maps import request_from_settings
+
+        request_from_settings(loaded)
     except RiskdietError as exc:
         raise _fail(exc) from None
     _stdout().print(check_text(loaded), markup=False, end="")

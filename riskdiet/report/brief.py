@@ -1,0 +1,395 @@
+"""The PDF brief: a document a wildlife manager can read, defend and attach to a plan.
+
+Layout: A4 (ISO 216, 210 x 297 mm) by default or US letter (8.5 x 11 in), a
+running header with the study name, "page X of Y" in the footer, PDF metadata
+(title, subject, creator ``riskdiet <version>``). Sections: a title block
+(study, date, riskdiet version, input file and its SHA-256), then
+:data:`riskdiet.report.sections.SECTIONS` in order.
+
+Reproducibility: the same study file, date and paper size give the same PDF
+byte for byte. reportlab runs in invariant mode (no creation time, fixed
+document id), figures are PNG files rendered without time stamps, and the date
+printed on the brief is chosen, in this order, from the ``date`` argument
+(``--date``), the study's ``report_date`` setting, and the modification date
+(UTC) of the input file.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import io
+import re
+from pathlib import Path
+
+from reportlab.lib import colors
+from reportlab.lib.units import mm
+from reportlab.pdfgen.canvas import Canvas
+from reportlab.platypus import BaseDocTemplate, Frame, PageTemplate, Spacer
+
+from riskdiet.analysis import StudyResult
+from riskdiet.errors import Problem, StudyError
+from riskdiet.model import Study
+from riskdiet.report import figures as figs
+from riskdiet.report.fonts import FontSet, register_fonts
+from riskdiet.report.layout import (
+    MARGIN_BOTTOM,
+    MARGIN_SIDE,
+    MARGIN_TOP,
+    PAPER,
+    Column,
+    Styles,
+    esc,
+    frame_size,
+    make_styles,
+    make_table,
+)
+from riskdiet.report.sections import NUM, REFERENCES, SECTIONS, Builder, _num
+from riskdiet.solver import DIRECT_LIMIT, MAX_POLICY_ITERATIONS, SOLVE_TOLERANCE
+
+__all__ = ["SECTIONS", "BriefPlan", "brief_date", "brief_story", "build_brief", "write_brief"]
+
+_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
+FOOTER_NOTE = "Decision aid, not a forecast of individual animals."
+
+
+def _valid_date(text: str) -> bool:
+    if not _DATE.match(text):
+        return False
+    try:
+        dt.date.fromisoformat(text)
+    except ValueError:
+        return False
+    return True
+
+
+def brief_date(study: Study, date: str | None = None) -> tuple[str, str]:
+    """The date printed on the brief and where it came from.
+
+    Parameters
+    ----------
+    study : Study
+        The study (its ``report_date`` setting and source file).
+    date : str, optional
+        ``YYYY-MM-DD`` given by the user (``--date``); wins over everything.
+
+    Returns
+    -------
+    date, origin : str
+        The ISO date and a few words on its origin, printed in the appendix.
+
+    Raises
+    ------
+    StudyError
+        When the date given or the study's ``report_date`` is not a real
+        ``YYYY-MM-DD`` date, or no date can be found at all.
+    """
+    if date is not None:
+        if not _valid_date(date.strip()):
+            raise StudyError([Problem("--date", "a date written YYYY-MM-DD, e.g. 2026-03-31",
+                                      f'"{date}"')])
+        return date.strip(), "the --date option"
+    setting = study.settings.report_date
+    if setting:
+        if not _valid_date(str(setting).strip()):
+            raise StudyError([Problem("settings.report_date",
+                                      "a date written YYYY-MM-DD, e.g. 2026-03-31",
+                                      f'"{setting}"')], study.source or None)
+        return str(setting).strip(), "the study's report_date setting"
+    if study.source and Path(study.source).is_file():
+        stamp = Path(study.source).stat().st_mtime
+        day = dt.datetime.fromtimestamp(stamp, tz=dt.UTC).date().isoformat()
+        return day, "the modification date (UTC) of the input file"
+    raise StudyError([Problem("--date", "a date for the brief (--date, or report_date in the "
+                              "study's settings)", "nothing (the study has no input file)")])
+
+
+class BriefPlan:
+    """Everything the brief needs before it is laid out.
+
+    Attributes
+    ----------
+    result : StudyResult
+    paper : str
+        ``a4`` or ``letter``.
+    date, date_origin : str
+        See :func:`brief_date`.
+    styles : Styles
+    figures : list of BriefFigure
+        Every figure the brief draws, in order.
+    """
+
+    def __init__(self, result: StudyResult, paper: str = "a4", date: str | None = None):
+        if paper not in PAPER:
+            raise StudyError([Problem("--paper", "a4 or letter", f'"{paper}"')])
+        self.result = result
+        self.paper = paper
+        self.date, self.date_origin = brief_date(result.study, date)
+        self.fonts: FontSet = register_fonts()
+        self.styles: Styles = make_styles(self.fonts)
+        self.width, self.height = frame_size(paper)
+        self.figures = figs.brief_figures(result)
+
+
+def _input_name(study: Study) -> str:
+    return Path(study.source).name if study.source else "(built in memory, no file)"
+
+
+def _title_block(b: Builder, plan: BriefPlan) -> None:
+    study = b.study
+    s = b.s
+    b.para(esc(study.name), s.title)
+    b.para("Decision brief: which prey the predator is predicted to take, at which reserves, "
+           "and at what risk to itself", s.subtitle)
+    n_sc = len(study.scenarios)
+    rows = [
+        ["date", esc(plan.date)],
+        ["riskdiet version", esc(b.result.riskdiet_version)],
+        ["input file", esc(_input_name(study))],
+        # a fixed-width face, so that the checksum can be compared character by character
+        ["input SHA-256", f'<font name="{plan.fonts.mono}">{esc(study.source_sha256 or "—")}'
+                          "</font>"],
+        ["predator", esc(study.predator.name)],
+        ["prey types", f"{len(study.prey)}: " + esc(", ".join(p.name for p in study.prey))],
+        ["scenarios", f"{n_sc}: " + esc(", ".join(sc.name for sc in study.scenarios))],
+    ]
+    columns = [Column(max_share=0.2), Column(max_share=0.8)]
+    b.story.append(make_table(rows, columns, s, b.width, header_rows=0))
+    b.story.append(Spacer(1, 8))
+    if study.settings.description:
+        b.para(esc(study.settings.description))
+    b.para("<b>How to read this brief.</b> Section 1 gives the findings in plain words and the "
+           "key numbers. Section 2 lists every input with its source; section 3 sets the "
+           "classic prey model beside the state-dependent decisions of section 4; section 5 "
+           "turns the decisions into predicted kills. Section 6 states what the model assumes "
+           "and the cautions that apply to any use of these numbers; section 7 holds the "
+           "technical details needed to check or reproduce them. " + esc(FOOTER_NOTE), s.box)
+
+
+def _appendix(b: Builder, plan: BriefPlan) -> None:
+    b.heading(7)
+    b.sub("Solver and energy grid")
+    rows = [["scenario", "currency", "energy levels n", "step [MJ]", "breeding level J / "
+             "season days T", "linear solver", "policy rounds", "converged",
+             "Bellman residual"]]
+    for s in b.result.scenarios:
+        g = s.grid
+        tj = f"J = {g.top}" if s.currency == "breeding" else f"T = {g.season_days}"
+        rows.append([esc(s.name), s.currency, str(g.n), _num(g.step_mj, 4), tj,
+                     esc(s.linear_solver), str(s.iterations), "yes" if s.converged else "no",
+                     f"{s.residual:.1e}"])
+    b.tables(rows, [Column(max_share=0.2)] + [NUM] * 4
+             + [Column(max_share=0.16)] + [NUM] * 3,
+             note="Breeding currency: policy iteration, each policy evaluated exactly by a "
+                  "linear solve (sparse LU up to "
+                  f"{DIRECT_LIMIT} unknowns; above, BiCGSTAB accepted only when its residual "
+                  f"is below {SOLVE_TOLERANCE:g} of the right-hand side), at most "
+                  f"{MAX_POLICY_ITERATIONS} rounds; the residual is the largest change one "
+                  "more Bellman update would make. Season currency: backward induction over "
+                  "the days of the season (exact; rounds = days). Reserves "
+                  "x<sub>j</sub> = j·R/n; level 0 is death by starvation.")
+    b.sub("Methods")
+    b.bullets([
+        "Decisions by reserves and condition: stochastic dynamic programming of a "
+        "state-dependent forager (Houston &amp; McNamara 1999; Mangel &amp; Clark 1988).",
+        "Classic prey model: profitability ranking and the zero-one rule (Charnov 1976), "
+        "intake rates from the multi-prey disc equation (Holling 1959), risk-adjusted diet by "
+        "Gilliam's rule (Werner &amp; Gilliam 1984).",
+        "Daily cost from body mass, where the input leaves it blank: a multiple of Kleiber's "
+        "(1961) basal rate 70·M<super>0.75</super> kcal/day.",
+        "Value of hunting ability: the derivative of the fitness at the start state with "
+        "respect to hunting ability, the selection gradient of Lande (1979), computed with the "
+        "policy held fixed.",
+        "Predicted kills: the Markov chain of reserves and condition under the optimal "
+        "decisions; long-run averages (breeding currency) or a day-by-day forward "
+        "calculation over the season (season currency).",
+    ])
+    b.sub("How this document was made")
+    study = b.study
+    n_fig = len(plan.figures)
+    b.para(
+        f"Made by riskdiet {esc(b.result.riskdiet_version)} from "
+        f"<font name=\"{plan.fonts.mono}\">{esc(_input_name(study))}</font> "
+        f"(SHA-256 <font name=\"{plan.fonts.mono}\" size=\"7.5\">"
+        f"{esc(study.source_sha256 or '—')}</font>). "
+        f"Date {esc(plan.date)}, taken from {esc(plan.date_origin)}. "
+        f"This brief draws {n_fig} figure{'s' if n_fig != 1 else ''}, embedded as PNG "
+        f"images at {figs.DPI_BRIEF} dpi. The same input file, date and paper size give this "
+        "document byte for byte: "
+        f"<font name=\"{plan.fonts.mono}\" size=\"8\">riskdiet brief "
+        f"{esc(_input_name(study))} --date {esc(plan.date)} --paper {plan.paper}</font>.")
+    b.sub("References")
+    for ref in REFERENCES:
+        b.para(esc(ref), b.s.small)
+
+
+def brief_story(plan: BriefPlan) -> tuple[list, list[str]]:
+    """The flowables of the brief, and the keys of the figures it embeds, in order."""
+    b = Builder(plan.result, plan.styles, plan.width, plan.height, plan.figures)
+    _title_block(b, plan)
+    b.summary()
+    b.inputs()
+    b.classic()
+    b.decisions()
+    b.kills()
+    b.cautions()
+    _appendix(b, plan)
+    return b.story, b.drawn
+
+
+def _page_decorations(plan: BriefPlan):
+    """Running header (study name) drawn on every page."""
+    page_w, page_h = PAPER[plan.paper]
+    fonts = plan.fonts
+    name = plan.result.study.name
+
+    def draw(canvas: Canvas, _doc) -> None:
+        from reportlab.pdfbase.pdfmetrics import stringWidth
+
+        canvas.saveState()
+        canvas.setFont(fonts.regular, 8)
+        canvas.setFillColor(colors.HexColor("#444444"))
+        right = f"riskdiet brief · {plan.date}"
+        room = page_w - 2 * MARGIN_SIDE - stringWidth(right, fonts.regular, 8) - 12
+        title = name
+        while stringWidth(title, fonts.regular, 8) > room and len(title) > 4:
+            title = title[:-2].rstrip() + "…"
+            title = title[:-1] if title.endswith("……") else title
+        y = page_h - MARGIN_TOP + 10 * mm
+        canvas.drawString(MARGIN_SIDE, y, title)
+        canvas.drawRightString(page_w - MARGIN_SIDE, y, right)
+        canvas.setStrokeColor(colors.HexColor("#9a9a9a"))
+        canvas.setLineWidth(0.5)
+        canvas.line(MARGIN_SIDE, y - 3, page_w - MARGIN_SIDE, y - 3)
+        canvas.drawString(MARGIN_SIDE, MARGIN_BOTTOM - 10 * mm, FOOTER_NOTE)
+        canvas.restoreState()
+
+    return draw
+
+
+def _numbered_canvas(plan: BriefPlan) -> type[Canvas]:
+    """A canvas that holds every page back until the end, then writes "page X of Y"."""
+    page_w, _ = PAPER[plan.paper]
+    font = plan.fonts.regular
+
+    class NumberedCanvas(Canvas):
+        def __init__(self, *args, **kwargs):
+            super().__init__(*args, **kwargs)
+            self._page_states: list[dict] = []
+
+        def showPage(self):
+            self._page_states.append(dict(self.__dict__))
+            self._startPage()
+
+        def save(self):
+            total = len(self._page_states)
+            for state in self._page_states:
+                self.__dict__.update(state)
+                self.setFont(font, 8)
+                self.setFillColor(colors.HexColor("#444444"))
+                self.drawRightString(page_w - MARGIN_SIDE, MARGIN_BOTTOM - 10 * mm,
+                                     f"page {self._pageNumber} of {total}")
+                Canvas.showPage(self)
+            Canvas.save(self)
+
+    return NumberedCanvas
+
+
+def build_brief(result: StudyResult, paper: str = "a4", date: str | None = None) -> bytes:
+    """Lay out the brief and return the PDF bytes.
+
+    Parameters
+    ----------
+    result : StudyResult
+        Solved study (:func:`riskdiet.solve`).
+    paper : str
+        ``a4`` (default) or ``letter``.
+    date : str, optional
+        ``YYYY-MM-DD``; see :func:`brief_date` for the default.
+
+    Returns
+    -------
+    bytes
+        The PDF.
+
+    Raises
+    ------
+    StudyError
+        Invalid paper or date.
+    """
+    return _build(BriefPlan(result, paper, date))[0]
+
+
+def _build(plan: BriefPlan, story: tuple[list, list[str]] | None = None
+           ) -> tuple[bytes, list[str]]:
+    """Lay out a plan (or an already made story of it) into PDF bytes."""
+    study = plan.result.study
+    page_w, page_h = PAPER[plan.paper]
+    buffer = io.BytesIO()
+    doc = BaseDocTemplate(
+        buffer, pagesize=(page_w, page_h), leftMargin=MARGIN_SIDE, rightMargin=MARGIN_SIDE,
+        topMargin=MARGIN_TOP, bottomMargin=MARGIN_BOTTOM, invariant=1,
+        title=f"{study.name}: decision brief",
+        subject="Predicted prey choice, kills and risk of a predator, by scenario "
+                "(riskdiet decision aid)",
+        author="riskdiet", creator=f"riskdiet {plan.result.riskdiet_version}",
+        keywords=f"riskdiet; {study.name}; input SHA-256 {study.source_sha256}",
+    )
+    frame = Frame(MARGIN_SIDE, MARGIN_BOTTOM, plan.width, plan.height, id="text",
+                  leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0)
+    doc.addPageTemplates([PageTemplate(id="page", frames=[frame],
+                                       onPage=_page_decorations(plan))])
+    flowables, drawn = story if story is not None else brief_story(plan)
+    doc.build(flowables, canvasmaker=_numbered_canvas(plan))
+    return buffer.getvalue(), drawn
+
+
+def write_brief(result: StudyResult, path: str | Path, paper: str = "a4",
+                date: str | None = None, force: bool = False,
+                figures_dir: str | Path | None = None) -> list[Path]:
+    """Write the brief (and, optionally, its figures) to disk.
+
+    The PDF is written to a temporary file beside ``path`` and renamed into
+    place, so a failed run leaves no half-written file. Nothing is written when
+    any output exists and ``force`` is False.
+
+    Parameters
+    ----------
+    result : StudyResult
+        Solved study.
+    path : str or Path
+        PDF to write.
+    paper, date
+        See :func:`build_brief`.
+    force : bool
+        Replace existing files.
+    figures_dir : str or Path, optional
+        Also write every figure as PNG (300 dpi) and SVG into this folder.
+
+    Returns
+    -------
+    list of Path
+        Files written, the PDF first.
+
+    Raises
+    ------
+    OutputExistsError
+        An output exists (or is the input file) and ``force`` is False.
+    StudyError
+        Invalid paper or date.
+    """
+    from riskdiet.io.atomic import check_writable, write_atomic
+
+    path = Path(path)
+    inputs = (Path(result.study.source),) if result.study.source else ()
+    check_writable(path, force, inputs)
+    plan = BriefPlan(result, paper, date)
+    if figures_dir is not None:
+        for f in plan.figures:
+            for suffix in (".png", ".svg"):
+                check_writable(Path(figures_dir) / f"{f.key}{suffix}", force)
+    data, _ = _build(plan)
+    written = [write_atomic(path, lambda tmp: tmp.write_bytes(data), force, inputs)]
+    if figures_dir is not None:
+        written += figs.write_figures(plan.figures, Path(figures_dir), force)
+    return written
+
