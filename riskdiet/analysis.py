@@ -20,6 +20,7 @@ import numpy as np
 import riskdiet
 from riskdiet.classic import ClassicResult, classic_prey_model
 from riskdiet.grid import Grid, make_grid
+from riskdiet.maps import MapResult, make_map, request_from_settings
 from riskdiet.model import Predator, Prey, Scenario, Study
 from riskdiet.predictions import SeasonKills, SteadyStateKills, season_kills, steady_state_kills
 from riskdiet.solver import Solution, solve_grid
@@ -167,11 +168,14 @@ class StudyResult:
         Baseline first, then the scenarios in input order.
     riskdiet_version : str
         Version that computed the results.
+    map : MapResult or None
+        The map asked for in the study's settings (``map_x``, ``map_y``), if any.
     """
 
     study: Study
     scenarios: tuple[ScenarioResult, ...]
     riskdiet_version: str = riskdiet.__version__
+    map: MapResult | None = None
 
     def scenario(self, name: str) -> ScenarioResult:
         for s in self.scenarios:
@@ -187,6 +191,10 @@ class StudyResult:
             "input_file": self.study.source,
             "input_sha256": self.study.source_sha256,
             "scenarios": [s.to_dict() for s in self.scenarios],
+            **({"map": {"scenario": self.map.request.scenario,
+                        "x": self.map.request.x.target, "y": self.map.request.y.target,
+                        "columns": self.map.columns(), "rows": self.map.rows()}}
+               if self.map is not None else {}),
         }
 
 
@@ -278,6 +286,7 @@ def solve(study: Study, executor: Executor | None = None) -> StudyResult:
     -------
     StudyResult
     """
+    request_from_settings(study)  # a bad map request fails before any work
     if executor is None:
         results = [_run_one(study, s) for s in study.scenarios]
     else:
@@ -286,4 +295,6 @@ def solve(study: Study, executor: Executor | None = None) -> StudyResult:
 
     baseline = results[0]
     results = [dataclasses.replace(r, findings=findings(r, baseline)) for r in results]
-    return StudyResult(study, tuple(results))
+    request = request_from_settings(study)
+    surface = None if request is None else make_map(study, request, executor)
+    return StudyResult(study, tuple(results), map=surface)

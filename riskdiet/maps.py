@@ -190,6 +190,12 @@ def _check_request(study: Study, request: MapRequest) -> None:
             elif len(base_prey) == 1 and min(axis.start, axis.stop) < 1:
                 problems.append(Problem(where, "a second prey type to take the other share",
                                         "only one prey type"))
+            elif sum(r for p, r in zip(base_prey, rates, strict=True)
+                     if p.name != axis.prey) == 0:
+                # the rest of the share has no prey to go to: the total could not stay fixed
+                problems.append(Problem(where, "other prey that are met (encounters > 0) to "
+                                        "take the rest of the share",
+                                        f"no encounters with any prey but {axis.prey}"))
     if problems:
         raise StudyError(problems)
     combos = [(x, y) for x in (request.x.start, request.x.stop)

@@ -216,9 +216,24 @@ def _provenance(result: StudyResult, date: str) -> Table:
 def results_tables(result: StudyResult, date: str | None = None) -> list[Table]:
     """Every table of the results workbook, in sheet order."""
     date = date or result.study.settings.report_date or _dt.date.today().isoformat()
-    taken = {"summary", "comparison", "kills", "predators", "classic", "provenance"}
+    taken = {"summary", "comparison", "kills", "predators", "classic", "map", "provenance"}
     tables = [_summary(result, date), _comparison(result), _kills(result), _predators(result)]
     tables += [_scenario(s, sheet_name(s.name, taken)) for s in result.scenarios]
-    tables += [_classic(result), _provenance(result, date)]
+    tables += [_classic(result)]
+    if result.map is not None:
+        tables.append(_map(result))
+    tables.append(_provenance(result, date))
     return tables
+
+
+def _map(result: StudyResult) -> Table:
+    surface = result.map
+    req = surface.request
+    formats = {i: "0.0000" for i, c in enumerate(surface.columns())
+               if c.startswith(("fitness", "marginal"))}
+    formats.update({i: "0.00" for i, c in enumerate(surface.columns())
+                    if c.startswith("kills")})
+    return Table("Map", f"Map of scenario {req.scenario}: x = {req.x.target}, y = "
+                 f"{req.y.target}; one row per cell", surface.columns(), surface.rows(),
+                 formats, notes=[f"Largest Bellman residual: {surface.max_residual:.1e}."])
 
