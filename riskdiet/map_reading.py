@@ -12,11 +12,20 @@ def _share(mask: np.ndarray) -> str:
 
 
 def _where(result: MapResult, mask: np.ndarray) -> str:
-    """Axis ranges covered by a set of cells, e.g. ``x from 0 to 0.4``."""
-    xs = result.x[mask.any(axis=0)]
-    ys = result.y[mask.any(axis=1)]
-    return (f"{result.request.x.label} {xs.min():.3g}–{xs.max():.3g} and "
-            f"{result.request.y.label} {ys.min():.3g}–{ys.max():.3g}")
+    """Where a set of cells lies, naming only the axes it does not span whole."""
+    parts = []
+    for label, values, hit in ((result.request.x.label, result.x, mask.any(axis=0)),
+                               (result.request.y.label, result.y, mask.any(axis=1))):
+        if not hit.all():
+            lo, hi = values[hit].min(), values[hit].max()
+            parts.append(f"{label} is {lo:.3g}" if lo == hi else
+                         f"{label} is between {lo:.3g} and {hi:.3g}")
+    return " and ".join(parts) if parts else "all over the map"
+
+
+def _at(result: MapResult, iy: int, ix: int) -> str:
+    return (f"{result.request.x.label} = {result.x[ix]:.3g}, "
+            f"{result.request.y.label} = {result.y[iy]:.3g}")
 
 
 def read_map(result: MapResult, group: str) -> list[str]:
@@ -35,22 +44,22 @@ def read_map(result: MapResult, group: str) -> list[str]:
                 f"({_share(grid == main)} of the map) is: {main}.")
         if len(names) > 1:
             second = names[order[1]]
-            text += (f" Next ({_share(grid == second)}): {second}, found at "
-                     f"{_where(result, grid == second)}.")
+            text += (f" Next ({_share(grid == second)}), where "
+                     f"{_where(result, grid == second)}: {second}.")
         out.append(text)
     z = result.marginal_hunting_ability
     iy, ix = np.unravel_index(np.nanargmax(z), z.shape)
     text = (f"Better hunting pays most ({z[iy, ix]:+.3f} per unit of ability) at "
-            f"{req.x.label} {result.x[ix]:.3g} and {req.y.label} {result.y[iy]:.3g}")
+            f"{_at(result, iy, ix)}")
     if (z <= 0).any():
         text += f"; it does not pay at all in {_share(z <= 0)} of the map"
+    else:
+        text += "; it pays everywhere on the map"
     out.append(text + ".")
     k = result.kills_per_year[group]
     per = "year" if result.currency == "breeding" else "season"
     lo = np.unravel_index(np.nanargmin(k), k.shape)
     hi = np.unravel_index(np.nanargmax(k), k.shape)
     out.append(f"Predicted {group} kills range from {k[lo]:.2g} per predator per {per} (at "
-               f"{req.x.label} {result.x[lo[1]]:.3g}, {req.y.label} {result.y[lo[0]]:.3g}) "
-               f"to {k[hi]:.2g} (at {req.x.label} {result.x[hi[1]]:.3g}, {req.y.label} "
-               f"{result.y[hi[0]]:.3g}).")
+               f"{_at(result, *lo)}) to {k[hi]:.2g} (at {_at(result, *hi)}).")
     return out

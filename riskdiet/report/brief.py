@@ -43,7 +43,8 @@ from riskdiet.report.layout import (
     make_styles,
     make_table,
 )
-from riskdiet.report.sections import NUM, REFERENCES, SECTIONS, Builder, _num
+from riskdiet.report.map_section import map_section
+from riskdiet.report.sections import MAPS, NUM, REFERENCES, SECTIONS, Builder, _num
 from riskdiet.solver import DIRECT_LIMIT, MAX_POLICY_ITERATIONS, SOLVE_TOLERANCE
 
 __all__ = ["SECTIONS", "BriefPlan", "brief_date", "brief_story", "build_brief", "write_brief"]
@@ -157,16 +158,22 @@ def _title_block(b: Builder, plan: BriefPlan) -> None:
     b.story.append(Spacer(1, 8))
     if study.settings.description:
         b.para(esc(study.settings.description))
+    n = b.number
+    maps = (f" Section {n(MAPS)} maps how the decisions, the value of hunting skill and the "
+            "kills change over two inputs." if MAPS in b.titles else "")
     b.para("<b>How to read this brief.</b> Section 1 gives the findings in plain words and the "
-           "key numbers. Section 2 lists every input with its source; section 3 sets the "
-           "classic prey model beside the state-dependent decisions of section 4; section 5 "
-           "turns the decisions into predicted kills. Section 6 states what the model assumes "
-           "and the cautions that apply to any use of these numbers; section 7 holds the "
-           "technical details needed to check or reproduce them. " + esc(FOOTER_NOTE), s.box)
+           f"key numbers. Section {n('Inputs')} lists every input with its source; section "
+           f"{n('Classic prey model')} sets the classic prey model beside the state-dependent "
+           f"decisions of section {n('Decisions by reserves')}; section "
+           f"{n('Predicted kills')} turns the decisions into predicted kills.{maps} Section "
+           f"{n('Assumptions and cautions')} states what the model assumes and the cautions "
+           "that apply to any use of these numbers; section "
+           f"{n('Technical appendix')} holds the technical details needed to check or "
+           "reproduce them. " + esc(FOOTER_NOTE), s.box)
 
 
 def _appendix(b: Builder, plan: BriefPlan) -> None:
-    b.heading(7)
+    b.heading("Technical appendix")
     b.sub("Solver and energy grid")
     rows = [["scenario", "currency", "energy levels n", "step [MJ]", "breeding level J / "
              "season days T", "linear solver", "policy rounds", "converged",
@@ -231,6 +238,8 @@ def brief_story(plan: BriefPlan) -> tuple[list, list[str]]:
     b.classic()
     b.decisions()
     b.kills()
+    if b.result.map is not None:
+        map_section(b)
     b.cautions()
     _appendix(b, plan)
     return b.story, b.drawn

@@ -427,6 +427,10 @@ def brief_figures(result: StudyResult) -> list[BriefFigure]:
         out.append(BriefFigure(f"{number:02d}-season-outlook",
                                "Season currency: chance of being alive and mean reserves "
                                "of the living, day by day, for a newly arrived animal.", fig))
+    if result.map is not None:
+        from riskdiet.report.map_figures import map_figures
+
+        out += map_figures(result.map, first=len(out) + 1)
     return out
 
 

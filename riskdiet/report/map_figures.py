@@ -82,7 +82,7 @@ def marginal_figure(result: MapResult) -> object:
 
     z = result.marginal_hunting_ability
     with _style():
-        fig = Figure(figsize=(WIDTH_IN * 0.75, 3.6), layout="constrained")
+        fig = Figure(figsize=(WIDTH_IN, 3.1), layout="constrained")
         ax = fig.subplots()
         lo, hi = float(np.nanmin(z)), float(np.nanmax(z))
         bound = max(abs(lo), abs(hi), 1e-12)
@@ -117,7 +117,7 @@ def kills_figure(result: MapResult, group: str) -> object:
     z = result.kills_per_year[group]
     per = "year" if result.currency == "breeding" else "season"
     with _style():
-        fig = Figure(figsize=(WIDTH_IN * 0.75, 3.6), layout="constrained")
+        fig = Figure(figsize=(WIDTH_IN, 3.1), layout="constrained")
         ax = fig.subplots()
         mesh = ax.pcolormesh(_edges(result.x), _edges(result.y), z, cmap="cividis",
                              shading="flat")
@@ -141,8 +141,12 @@ def map_figures(result: MapResult, group: str | None = None, first: int = 1
                     "an injured animal attack, across the map (regimes read from low to high "
                     "reserves).", regime_figure(result)),
         BriefFigure(f"{first + 1:02d}-map-hunting-ability", f"Scenario “{sc}”: marginal "
-                    "value of hunting ability; the black line is where better hunting stops "
-                    "paying (zero).", marginal_figure(result)),
+                    "value of hunting ability (policy held fixed)"
+                    + ("; the black line is where better hunting stops paying (zero)."
+                       if (result.marginal_hunting_ability <= 0).any()
+                       and (result.marginal_hunting_ability > 0).any()
+                       else "; dotted lines are contours of equal value."),
+                    marginal_figure(result)),
         BriefFigure(f"{first + 2:02d}-map-kills-{group.replace(' ', '-')}",
                     f"Scenario “{sc}”: predicted {group} kills per predator.",
                     kills_figure(result, group)),

@@ -28,7 +28,18 @@ SECTIONS = (
     "Assumptions and cautions",
     "Technical appendix",
 )
-"""Section headings, in order (numbered 1-7 in the brief)."""
+"""Section headings, in order (numbered 1-7 in the brief; a study that asks for a map
+gets a "Maps" section after "Predicted kills", see :func:`section_titles`)."""
+
+MAPS = "Maps"
+
+
+def section_titles(result: StudyResult) -> list[str]:
+    """The brief's section headings for this result, in order."""
+    titles = list(SECTIONS)
+    if result.map is not None:
+        titles.insert(titles.index("Predicted kills") + 1, MAPS)
+    return titles
 
 REFERENCES = (
     "Charnov, E. L. (1976) Optimal foraging: attack strategy of a mantid. "
@@ -165,14 +176,19 @@ class Builder:
         self.figures = {f.key: f for f in figures}
         self.figure_order = [f.key for f in figures]
         self.drawn: list[str] = []
+        self.titles = section_titles(result)
 
     # --- small helpers -----------------------------------------------------------------------
     def para(self, text: str, style=None) -> None:
         self.story.append(Paragraph(text, style or self.s.body))
 
-    def heading(self, number: int) -> None:
+    def number(self, title: str) -> int:
+        """Section number of a heading in this brief."""
+        return self.titles.index(title) + 1
+
+    def heading(self, title: str) -> None:
         self.story.append(CondPageBreak(150))
-        self.para(f"{number}. {esc(SECTIONS[number - 1])}", self.s.h1)
+        self.para(f"{self.number(title)}. {esc(title)}", self.s.h1)
 
     def sub(self, text: str) -> None:
         # room for the heading and a few lines; a table after it may then split normally
@@ -227,7 +243,7 @@ class Builder:
 
     # --- 2. summary --------------------------------------------------------------------------
     def summary(self) -> None:
-        self.heading(1)
+        self.heading("Summary")
         self.para("What the model predicts for each scenario, in plain words, then the key "
                   "numbers side by side. Section 2 shows the inputs behind them and section 6 "
                   "what the model assumes.")
@@ -280,7 +296,7 @@ class Builder:
 
     # --- 3. inputs ---------------------------------------------------------------------------
     def inputs(self) -> None:
-        self.heading(2)
+        self.heading("Inputs")
         p = self.study.predator
         self.para("The values below are those of the input file; the notes column carries the "
                   "sources the user gave. Values that riskdiet derived rather than read are "
@@ -357,7 +373,7 @@ class Builder:
 
     # --- 4. classic --------------------------------------------------------------------------
     def classic(self) -> None:
-        self.heading(3)
+        self.heading("Classic prey model")
         self.para(
             "The classic model describes a well-fed forager that only maximises its rate of "
             "energy intake and has no reserves to worry about. Prey types are ranked by "
@@ -432,7 +448,7 @@ class Builder:
 
     # --- 5. decisions ------------------------------------------------------------------------
     def decisions(self) -> None:
-        self.heading(4)
+        self.heading("Decisions by reserves")
         self.para(
             "The state-dependent model (Houston &amp; McNamara 1999; Mangel &amp; Clark 1988) "
             "finds, for every level of reserves and for a healthy and an injured animal, "
@@ -470,7 +486,7 @@ class Builder:
 
     # --- 6. kills ----------------------------------------------------------------------------
     def kills(self) -> None:
-        self.heading(5)
+        self.heading("Predicted kills")
         breeding = self.scenarios_in(lambda s: s.kills is not None)
         season = self.scenarios_in(lambda s: s.season_kills is not None)
         if breeding:
@@ -571,7 +587,7 @@ class Builder:
 
     # --- 7. assumptions and cautions ---------------------------------------------------------
     def cautions(self) -> None:
-        self.heading(6)
+        self.heading("Assumptions and cautions")
         self.sub("What the model assumes")
         self.bullets([esc(a) for a in ASSUMPTIONS])
         self.sub("What it cannot say")

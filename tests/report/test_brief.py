@@ -35,7 +35,12 @@ from riskdiet.model import build_study
 from riskdiet.report import brief as brief_mod
 from riskdiet.report import figures as figs
 from riskdiet.report.layout import frame_size
-from riskdiet.report.sections import ASSUMPTIONS, CAUTIONS, REFERENCES, SECTIONS
+from riskdiet.report.sections import (
+    ASSUMPTIONS,
+    CAUTIONS,
+    REFERENCES,
+    section_titles,
+)
 
 runner = CliRunner()
 MM = 72 / 25.4
@@ -71,7 +76,7 @@ def small_result():
     return solve(build_study(raw))
 
 
-def test_brief_contains_every_heading_name_caution_and_checksum(demo_pdf):
+def test_brief_contains_every_heading_name_caution_and_checksum(demo_pdf, demo_result):
     """Extracted text holds every section heading in order, every scenario and
     prey name, the assumptions and cautions, and the input's SHA-256 computed
     here with hashlib (FIPS 180-4); reproducibility needs the checksum printed
@@ -79,7 +84,8 @@ def test_brief_contains_every_heading_name_caution_and_checksum(demo_pdf):
     pages = text_of(demo_pdf)
     whole = " ".join(pages)
     flat = squash(whole)
-    positions = [whole.find(f"{i}. {h}") for i, h in enumerate(SECTIONS, start=1)]
+    positions = [whole.find(f"{i}. {h}") for i, h in
+                 enumerate(section_titles(demo_result), start=1)]
     assert all(p >= 0 for p in positions) and positions == sorted(positions)
     raw = json.loads(EXAMPLE.read_text(encoding="utf-8"))
     for name in ["baseline"] + [s["name"] for s in raw["scenarios"]]:
@@ -133,8 +139,10 @@ def test_embedded_images_match_the_figures_the_brief_says_it_draws(demo_pdf, dem
     images = sum(len(page.images) for page in reader.pages)
     stated = re.search(r"This brief draws (\d+) figures?", " ".join(text_of(demo_pdf)))
     assert stated is not None
-    # one figure per scenario (decisions) and one kills chart (breeding currency only)
-    assert images == int(stated.group(1)) == len(demo_result.scenarios) + 1
+    # one figure per scenario (decisions), one kills chart (breeding currency only) and
+    # the three map figures, since the demo's settings ask for a map
+    maps = 3 if demo_result.map is not None else 0
+    assert images == int(stated.group(1)) == len(demo_result.scenarios) + 1 + maps
     assert len(figs.brief_figures(demo_result)) == images
 
 
@@ -368,3 +376,17 @@ def test_brief_module_is_not_imported_by_the_cli_at_start():
                          check=True, cwd=ROOT).stdout.strip()
     assert out == "False"
 
+
+
+def test_maps_section_only_when_a_map_is_requested(demo_pdf, demo_result, small_result):
+    """A study whose settings ask for a map gets a Maps section that reads the map in words
+    and embeds its three figures; a study without one gets none (issue layout; common
+    practice)."""
+    whole = " ".join(text_of(demo_pdf))
+    number = section_titles(demo_result).index("Maps") + 1
+    assert f"{number}. Maps" in whole
+    assert "The map varies" in whole
+    assert "Marginal value of hunting ability" in whole or "hunting ability" in whole
+    small = " ".join(text_of(brief_mod.build_brief(small_result)))
+    assert small_result.map is None
+    assert ". Maps" not in small

@@ -1,0 +1,28 @@
+"""The brief's *Maps* section, drawn when the study's settings ask for a map."""
+
+from __future__ import annotations
+
+from riskdiet.map_reading import read_map
+from riskdiet.report.layout import esc
+from riskdiet.report.map_figures import default_group
+from riskdiet.report.sections import MAPS, Builder
+
+
+def map_section(b: Builder) -> None:
+    """Heading, a paragraph that reads the map in words, and the three map figures."""
+    surface = b.result.map
+    req = surface.request
+    b.heading(MAPS)
+    b.para(
+        "A map repeats the whole calculation over a grid of two inputs while everything else "
+        f"stays as in scenario “{esc(req.scenario)}”: {esc(req.x.label)} across, "
+        f"{esc(req.y.label)} up. It shows where the decision rule changes, where better "
+        "hunting would pay, and how the predicted kills respond. Regimes are read from low to "
+        "high reserves; short runs of a few levels are folded into their neighbours (the "
+        "exact thresholds of every cell are in the results workbook's Map sheet).")
+    group = default_group(surface)
+    b.para(" ".join(esc(line) for line in read_map(surface, group)))
+    for key in [k for k in b.figure_order if "-map-" in k]:
+        b.figure(key)
+    b.para(f"Largest Bellman residual over the {surface.x.size * surface.y.size} cells: "
+           f"{surface.max_residual:.1e}.", b.s.small)
