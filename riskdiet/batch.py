@@ -23,6 +23,9 @@ References
 
 from __future__ import annotations
 
+import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
@@ -40,6 +43,37 @@ from riskdiet.grid import (
     targets,
 )
 from riskdiet.solver import MAX_POLICY_ITERATIONS, _bellman, step_values
+
+_BLAS_LOCK = threading.Lock()
+_BLAS_USERS = 0
+_BLAS_LIMIT: threadpool_limits | None = None
+
+
+@contextmanager
+def _one_blas_thread() -> Iterator[None]:
+    """Limit BLAS to one thread while any batched solve runs in this process.
+
+    threadpoolctl's limits are process-wide, so solves overlapping in several
+    threads (a threaded executor, a Dask worker with several threads) share one
+    limit: the first to start sets it, the last to finish restores it.
+    """
+    global _BLAS_USERS, _BLAS_LIMIT
+    with _BLAS_LOCK:
+        if _BLAS_USERS == 0:
+            _BLAS_LIMIT = threadpool_limits(limits=1)
+            _BLAS_LIMIT.__enter__()
+        _BLAS_USERS += 1
+    try:
+        yield
+    finally:
+        with _BLAS_LOCK:
+            _BLAS_USERS -= 1
+            if _BLAS_USERS == 0 and _BLAS_LIMIT is not None:
+                # the context-manager exit, not restore_original_limits(): after the
+                # latter, later limits set from other threads were seen not to apply
+                _BLAS_LIMIT.__exit__(None, None, None)
+                _BLAS_LIMIT = None
+
 
 SUB_BATCH = 64
 """Cells factorised together: their dense systems (64 x 2m x 2m) stay in cache."""
@@ -157,7 +191,7 @@ def solve_breeding_batch(grid: Grid, initial_values: np.ndarray | None = None,
         raise RiskdietError("batched solving covers the breeding currency only")
     batch = grid.cost.shape[0]
     pieces = []
-    with threadpool_limits(limits=1):
+    with _one_blas_thread():
         # LAPACK on many small matrices: one thread per process is fastest; the
         # parallelism comes from running independent chunks in separate workers
         for lo in range(0, batch, SUB_BATCH):
