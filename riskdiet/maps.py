@@ -16,6 +16,7 @@ cluster's executor).
 from __future__ import annotations
 
 import dataclasses
+import functools
 import itertools
 import math
 from collections.abc import Callable
@@ -449,12 +450,22 @@ def _fixed_season_value(grid: Grid, base) -> float:
 
 def _regimes(out: dict, i: int, attacked: np.ndarray, prey: tuple[Prey, ...],
              grid: Grid) -> None:
-    risky = np.array([p.risky for p in prey])
-    names = [p.name for p in prey]
-    fractions = grid.living / grid.n
+    risky = tuple(p.risky for p in prey)
+    names = tuple(p.name for p in prey)
     for k, (cat, det) in enumerate((("regime_h", "detail_h"), ("regime_i", "detail_i"))):
-        r = classify(attacked[k], risky, names, fractions)
-        out[cat][i], out[det][i] = r.category, r.detail
+        mask = np.ascontiguousarray(attacked[k])
+        out[cat][i], out[det][i] = _classify(mask.tobytes(), mask.shape, risky, names, grid.n,
+                                             int(grid.living[0]))
+
+
+@functools.lru_cache(maxsize=8192)
+def _classify(mask: bytes, shape: tuple[int, int], risky: tuple[bool, ...],
+              names: tuple[str, ...], n: int, first_level: int) -> tuple[str, str]:
+    """Regime category and detail of one attack table (neighbouring cells often share one)."""
+    attacked = np.frombuffer(mask, dtype=bool).reshape(shape)
+    fractions = (first_level + np.arange(shape[0])) / n
+    r = classify(attacked, np.array(risky), list(names), fractions)
+    return r.category, r.detail
 
 
 def _solve_band(study: Study, request: MapRequest, rows: list[int]) -> list[tuple[int, dict]]:
