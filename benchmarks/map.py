@@ -6,7 +6,7 @@ breeding_threshold 1, 100 energy levels, injuries on), solved
 
 * inline (one process, :func:`riskdiet.maps.make_map` without an executor), and
 * with two worker processes (``concurrent.futures.ProcessPoolExecutor(2)``,
-  8 bands of rows),
+  4 bands of rows, as `riskdiet map --workers 2` uses),
 
 and compares both with the plain approach of solving every cell on its own
 (:func:`riskdiet.solver.solve_grid` on :func:`riskdiet.grid.make_grid`). That
@@ -118,14 +118,14 @@ def main() -> None:
 
     def with_pool():
         with ProcessPoolExecutor(2) as pool:
-            return make_map(study, request, pool, bands=8)
+            return make_map(study, request, pool, bands=4)
 
     children0 = resource.getrusage(resource.RUSAGE_CHILDREN)
     t_pool, runs, pooled = timed(with_pool, args.repeats)
     children = resource.getrusage(resource.RUSAGE_CHILDREN)
     cpu_pool = ((children.ru_utime + children.ru_stime)
                 - (children0.ru_utime + children0.ru_stime)) / len(runs)
-    print(f"2 workers (process pool, 8 bands): {t_pool:8.2f} s  "
+    print(f"2 workers (process pool, 4 bands): {t_pool:8.2f} s  "
           f"{cells / t_pool:9.0f} cells/s" + (f"  (median of {len(runs)})"
                                                 if len(runs) > 1 else "")
           + f"  CPU {cpu_pool:.1f} s in the workers  [wall time includes starting the pool]")

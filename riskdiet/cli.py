@@ -271,6 +271,11 @@ def map_command(
         loaded = load_study(study)
         request = _map_request(loaded, x, y, scenario, gradient)
         chosen = _map_group(loaded, group)
+        if out is not None:
+            from riskdiet.io.map_files import check_map_files
+
+            # refuse existing outputs before the (possibly long) computation
+            check_map_files(loaded, request, out, chosen, force)
         result = _run_map(loaded, request, workers, scheduler, quiet)
         from riskdiet.map_reading import read_map
         from riskdiet.report.map_figures import default_group
@@ -354,7 +359,7 @@ def _run_map(study, request, workers: int, scheduler: str | None, quiet: bool):
             from concurrent.futures import ProcessPoolExecutor
 
             with ProcessPoolExecutor(max_workers=workers) as pool:
-                return make_map(study, request, pool, bands=4 * workers, progress=progress)
+                return make_map(study, request, pool, bands=2 * workers, progress=progress)
         return make_map(study, request, progress=progress)
 
 

@@ -101,6 +101,9 @@ def parse_target(target: str, study: Study, where: str, numeric_only: bool = Tru
     if numeric_only and not specs[field].numeric:
         raise StudyError([Problem(where, "a numeric field (" + ", ".join(numeric) + ")",
                                   f'the {specs[field].kind} field "{field}"')])
+    if where.endswith("gradient") and specs[field].kind == INTEGER:
+        raise StudyError([Problem(where, "a field that can change by a small amount (not a "
+                                  "whole-number field)", f'the whole-number field "{field}"')])
     return prey, field
 
 
@@ -213,8 +216,8 @@ def _check_request(study: Study, request: MapRequest) -> None:
             key = (p.where, p.expected)
             if key not in seen:
                 seen.add(key)
-                problems.append(Problem(f"map cell x={x:g}, y={y:g} ({p.where})", p.expected,
-                                        p.found))
+                problems.append(Problem(f"--x/--y: map cell x={x:g}, y={y:g} ({p.where})",
+                                        p.expected, p.found))
     if problems:
         raise StudyError(problems)
 

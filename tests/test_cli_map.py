@@ -179,6 +179,25 @@ def test_axis_values_that_make_inputs_invalid_exit_2(small_study, tmp_path):
     assert not (tmp_path / "out" / "map.csv").exists()
 
 
+def test_whole_number_gradient_is_refused(small_study, tmp_path):
+    """--gradient of a whole-number field (energy_levels) exits 2: a marginal value needs
+    an input that can change by a small amount (definition of a derivative)."""
+    result = runner.invoke(app, ["map", str(small_study), "--x", X, "--y", Y, "--quiet",
+                                 "--gradient", "energy_levels", "--out", str(tmp_path / "o")])
+    assert result.exit_code == 2
+    assert "--gradient" in result.stderr and "whole-number" in result.stderr
+    assert not (tmp_path / "o").exists()
+
+
+def test_invalid_cell_message_names_the_axes(small_study, tmp_path):
+    """An axis value that makes an input invalid is reported against --x/--y (located
+    errors; common practice)."""
+    result = runner.invoke(app, ["map", str(small_study), "--x",
+                                 "wild boar:capture_success=0.2:1.5:4", "--y", Y, "--quiet"])
+    assert result.exit_code == 2
+    assert "--x/--y" in result.stderr
+
+
 def test_two_workers_write_the_same_map_as_one(small_study, written, tmp_path):
     """--workers 2 (a local process pool, bands of rows solved independently)
     writes a map.csv byte for byte equal to the one-worker run: the optimal

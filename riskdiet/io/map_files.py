@@ -20,6 +20,19 @@ def write_map_csv(result: MapResult, path: Path, force: bool = False) -> Path:
     return write_atomic(Path(path), write, force)
 
 
+def check_map_files(study, request, folder: str | Path, group: str | None,
+                    force: bool = False) -> None:
+    """Refuse, before any work, outputs of a map that exist already (without ``force``)."""
+    from riskdiet.report.map_figures import figure_keys, first_unwanted_group
+
+    folder = Path(folder)
+    if group is None:
+        _, prey = study.inputs_for(study.scenario(request.scenario))
+        group = first_unwanted_group([p.group for p in prey])
+    for name in ["map.csv"] + [f"{k}{s}" for k in figure_keys(group) for s in (".png", ".svg")]:
+        check_writable(folder / name, force)
+
+
 def write_map_files(result: MapResult, folder: str | Path, group: str, force: bool = False
                     ) -> list[Path]:
     """Write map.csv and the three map figures into ``folder``; refuse existing files first."""

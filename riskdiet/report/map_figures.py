@@ -104,10 +104,18 @@ def marginal_figure(result: MapResult) -> object:
 
 def default_group(result: MapResult) -> str:
     """The group a kills map shows by default: the first non-wild group, else the first."""
-    for g in result.groups:
-        if g.lower() not in WILD_GROUPS:
-            return g
-    return result.groups[0]
+    return first_unwanted_group(list(result.groups))
+
+
+def first_unwanted_group(groups: list[str]) -> str:
+    """The first group that is not wild (livestock, protected...), else the first group."""
+    return next((g for g in groups if g.lower() not in WILD_GROUPS), groups[0])
+
+
+def figure_keys(group: str, first: int = 1) -> list[str]:
+    """File stems of the three map figures (regimes, hunting ability, kills of ``group``)."""
+    return [f"{first:02d}-map-regimes", f"{first + 1:02d}-map-hunting-ability",
+            f"{first + 2:02d}-map-kills-{group.replace(' ', '-')}"]
 
 
 def kills_figure(result: MapResult, group: str) -> object:
@@ -136,18 +144,18 @@ def map_figures(result: MapResult, group: str | None = None, first: int = 1
     """The three map figures with captions, numbered from ``first``."""
     group = group or default_group(result)
     sc = result.request.scenario
+    keys = figure_keys(group, first)
+    z = result.marginal_hunting_ability
+    crosses_zero = bool((z <= 0).any() and (z > 0).any())
     return [
-        BriefFigure(f"{first:02d}-map-regimes", f"Scenario “{sc}”: which prey a healthy and "
-                    "an injured animal attack, across the map (regimes read from low to high "
-                    "reserves).", regime_figure(result)),
-        BriefFigure(f"{first + 1:02d}-map-hunting-ability", f"Scenario “{sc}”: marginal "
-                    "value of hunting ability (policy held fixed)"
-                    + ("; the black line is where better hunting stops paying (zero)."
-                       if (result.marginal_hunting_ability <= 0).any()
-                       and (result.marginal_hunting_ability > 0).any()
-                       else "; dotted lines are contours of equal value."),
+        BriefFigure(keys[0], f"Scenario “{sc}”: which prey a healthy and an injured animal "
+                    "attack, across the map (regimes read from low to high reserves).",
+                    regime_figure(result)),
+        BriefFigure(keys[1], f"Scenario “{sc}”: marginal value of hunting ability (policy "
+                    "held fixed)" + ("; the black line is where better hunting stops paying "
+                                     "(zero)." if crosses_zero
+                                     else "; dotted lines are contours of equal value."),
                     marginal_figure(result)),
-        BriefFigure(f"{first + 2:02d}-map-kills-{group.replace(' ', '-')}",
-                    f"Scenario “{sc}”: predicted {group} kills per predator.",
+        BriefFigure(keys[2], f"Scenario “{sc}”: predicted {group} kills per predator.",
                     kills_figure(result, group)),
     ]
