@@ -46,6 +46,17 @@ def _fail(exc: RiskdietError) -> typer.Exit:
     return typer.Exit(2)
 
 
+def _solved(path: Path):
+    """Load and solve a study, turning library errors into exit code 2."""
+    from riskdiet.analysis import solve as solve_study
+    from riskdiet.io import load_study
+
+    try:
+        return solve_study(load_study(path))
+    except RiskdietError as exc:
+        raise _fail(exc) from None
+
+
 def _version(value: bool) -> None:
     if value:
         typer.echo(f"riskdiet {riskdiet.__version__}")
@@ -109,15 +120,9 @@ def rank(study: Path = typer.Argument(..., help=STUDY_HELP)) -> None:
 
     Example: riskdiet rank examples/harrow-vale.xlsx
     """
-    from riskdiet.analysis import solve as solve_study
-    from riskdiet.io import load_study
     from riskdiet.report.text import classic_summary
 
-    try:
-        result = solve_study(load_study(study))
-    except RiskdietError as exc:
-        raise _fail(exc) from None
-    _stdout().print(classic_summary(result), markup=False)
+    _stdout().print(classic_summary(_solved(study)), markup=False)
 
 
 @app.command()
@@ -126,15 +131,10 @@ def compare(study: Path = typer.Argument(..., help=STUDY_HELP)) -> None:
 
     Example: riskdiet compare examples/harrow-vale.xlsx
     """
-    from riskdiet.analysis import solve as solve_study
     from riskdiet.compare import comparison_table
-    from riskdiet.io import load_study
     from riskdiet.report.text import comparison_renderables
 
-    try:
-        result = solve_study(load_study(study))
-    except RiskdietError as exc:
-        raise _fail(exc) from None
+    result = _solved(study)
     console = _stdout()
     for table in comparison_renderables(comparison_table(result), max(console.width, 100)):
         console.print(table)
