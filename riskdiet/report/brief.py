@@ -18,7 +18,10 @@ from __future__ import annotations
 
 import datetime as dt
 import io
+import os
 import re
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 
 from reportlab.lib import colors
@@ -348,8 +351,29 @@ def _build(plan: BriefPlan, story: tuple[list, list[str]] | None = None
     doc.addPageTemplates([PageTemplate(id="page", frames=[frame],
                                        onPage=_page_decorations(plan))])
     flowables, drawn = story if story is not None else brief_story(plan)
-    doc.build(flowables, canvasmaker=_numbered_canvas(plan))
+    with _creation_date(plan.date):
+        doc.build(flowables, canvasmaker=_numbered_canvas(plan))
     return buffer.getvalue(), drawn
+
+
+@contextmanager
+def _creation_date(date: str) -> Iterator[None]:
+    """Stamp the PDF's creation and modification dates with the brief's date (00:00 UTC).
+
+    reportlab takes a fixed time from ``SOURCE_DATE_EPOCH`` (else 2000-01-01 in
+    invariant mode), so the date is still fixed by the input and the bytes stay
+    reproducible; the variable is restored afterwards.
+    """
+    epoch = int(dt.datetime.strptime(date, "%Y-%m-%d").replace(tzinfo=dt.UTC).timestamp())
+    old = os.environ.get("SOURCE_DATE_EPOCH")
+    os.environ["SOURCE_DATE_EPOCH"] = str(epoch)
+    try:
+        yield
+    finally:
+        if old is None:
+            os.environ.pop("SOURCE_DATE_EPOCH", None)
+        else:
+            os.environ["SOURCE_DATE_EPOCH"] = old
 
 
 def write_brief(result: StudyResult, path: str | Path, paper: str = "a4",

@@ -390,3 +390,18 @@ def test_maps_section_only_when_a_map_is_requested(demo_pdf, demo_result, small_
     small = " ".join(text_of(brief_mod.build_brief(small_result)))
     assert small_result.map is None
     assert ". Maps" not in small
+
+
+def test_pdf_metadata_carries_title_creator_and_the_brief_date(small_result):
+    """Title, subject and creator (with riskdiet's version) are set, and the creation date
+    is the brief's date at 00:00 UTC, not the time of building (PDF 1.7, ISO 32000-1,
+    14.3.3: document information dictionary; date format D:YYYYMMDDHHmmSS)."""
+    import riskdiet
+
+    pdf = brief_mod.build_brief(small_result, date="2026-02-03")
+    meta = PdfReader(io.BytesIO(pdf)).metadata
+    assert meta["/CreationDate"].startswith("D:20260203000000")
+    assert meta["/Creator"] == f"riskdiet {riskdiet.__version__}"
+    assert small_result.study.name in meta["/Title"]
+    assert meta["/Subject"]
+    assert "SOURCE_DATE_EPOCH" not in __import__("os").environ
