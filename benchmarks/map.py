@@ -40,9 +40,10 @@ import numpy as np
 
 from riskdiet.grid import make_grid
 from riskdiet.maps import MapRequest, cell_inputs, make_map, parse_axis
-from riskdiet.model import BASELINE, build_study
+from riskdiet.model import BASELINE
 from riskdiet.regimes import classify
 from riskdiet.solver import solve_grid
+from riskdiet.validation import build_study
 
 DEMO = Path(__file__).resolve().parent.parent / "examples" / "harrow-vale.json"
 PREY = ("forest deer", "wild boar", "upland ewe")

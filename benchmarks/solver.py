@@ -22,8 +22,8 @@ import numpy as np
 
 from riskdiet import solver
 from riskdiet.grid import attack_probabilities, make_grid, rank_attacks, targets
-from riskdiet.model import build_study
 from riskdiet.solver import solve_grid, step_values
+from riskdiet.validation import build_study
 
 TOLERANCE = 1e-10
 

@@ -69,8 +69,8 @@ def write_demo(folder: str | Path = DEFAULT_FOLDER, force: bool = False) -> Demo
     from riskdiet.io.atomic import check_writable
     from riskdiet.io.results_workbook import write_results_workbook
     from riskdiet.io.template import write_study_workbook
-    from riskdiet.model import build_study
     from riskdiet.report.brief import brief_date, write_brief
+    from riskdiet.validation import build_study
 
     folder = Path(folder)
     files = DemoFiles(folder / "harrow-vale.xlsx", folder / "harrow-vale-results.xlsx",

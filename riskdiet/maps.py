@@ -8,9 +8,9 @@ proportion so that the total stays fixed).
 
 Work is split into bands of map rows. Within a band the rows are solved one
 after another, each row's cells together (:mod:`riskdiet.batch`), starting
-from the policies of the row before; bands are independent and run through any
-:class:`concurrent.futures.Executor` (a local process pool, or a Dask
-cluster's executor).
+from the fitness of the rows before (extrapolated); bands are independent and
+run through any :class:`concurrent.futures.Executor` (a local process pool, or
+a Dask cluster's executor).
 """
 
 from __future__ import annotations
@@ -28,9 +28,10 @@ import numpy as np
 from riskdiet.errors import Problem, StudyError, describe
 from riskdiet.fields import INTEGER, field_specs
 from riskdiet.grid import Grid, make_grid, make_grids, targets
-from riskdiet.model import BASELINE, Predator, Prey, Study, check_values, round_half_up
+from riskdiet.model import BASELINE, Predator, Prey, Study, round_half_up
 from riskdiet.regimes import classify
 from riskdiet.solver import _bellman, step_values
+from riskdiet.validation import check_values
 
 SHARE = "encounter_share"
 DAYS_PER_YEAR = 365.0
@@ -349,7 +350,7 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
     inputs = [cell_inputs(study, request, x, y, base) for x in request.x.values]
     out = {k: [None] * nx for k in ("fitness", "marginal", "extra", "kills", "regime_h",
                                     "regime_i", "detail_h", "detail_i", "residual")}
-    policies: dict = {}
+    history_out: dict = {}
     groups: dict[tuple, list[int]] = {}
     for ix, (p, q) in enumerate(inputs):
         key = (p.currency, p.energy_levels, p.breeding_level, len(q), p.season_days)
@@ -375,7 +376,7 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
             sol = solve_breeding_batch(batch, start, extra)
             history = (warm.get(key, []) if warm else [])
             history = [h for h in history if len(h) == len(cells)][-2:]
-            policies[key] = [*history, sol.fitness]
+            history_out[key] = [*history, sol.fitness]
             kills = sol.kills_per_day * DAYS_PER_YEAR
             for n, i in enumerate(cells):
                 out["fitness"][i] = sol.fitness_at_start[n]
@@ -399,7 +400,7 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
                 out["residual"][i] = sol.residual
                 _regimes(out, i, sol.living_priority(grid) >= 0, inputs[i][1], grid)
     out["groups"] = [[p.group for p in inputs[i][1]] for i in range(nx)]
-    return out, policies
+    return out, history_out
 
 
 def _extrapolate(history: list[np.ndarray], cells: int) -> np.ndarray | None:

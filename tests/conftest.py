@@ -18,7 +18,8 @@ os.environ.pop("PY_COLORS", None)
 import pytest
 
 from riskdiet.grid import make_grid
-from riskdiet.model import BASELINE, build_study
+from riskdiet.model import BASELINE
+from riskdiet.validation import build_study
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLE = ROOT / "examples" / "harrow-vale.json"

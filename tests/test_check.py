@@ -9,8 +9,8 @@ from pathlib import Path
 from typer.testing import CliRunner
 
 from riskdiet.cli import app
-from riskdiet.model import build_study
 from riskdiet.report.check import check_text
+from riskdiet.validation import build_study
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO_JSON = ROOT / "examples" / "harrow-vale.json"

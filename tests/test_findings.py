@@ -7,7 +7,7 @@ from pathlib import Path
 
 import riskdiet
 from riskdiet.compare import entry_reserves
-from riskdiet.model import build_study
+from riskdiet.validation import build_study
 
 EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "harrow-vale.json"
 

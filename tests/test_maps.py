@@ -42,9 +42,10 @@ from riskdiet.chain import season_outlook, steady_state
 from riskdiet.errors import StudyError
 from riskdiet.grid import make_grid
 from riskdiet.maps import MapRequest, cell_inputs, make_map, parse_axis
-from riskdiet.model import BASELINE, build_study
+from riskdiet.model import BASELINE
 from riskdiet.regimes import classify
 from riskdiet.solver import solve_grid
+from riskdiet.validation import build_study
 
 DEMO = json.loads(EXAMPLE.read_text(encoding="utf-8"))
 

@@ -13,7 +13,8 @@ import pytest
 from conftest import injury_raw
 
 from riskdiet.errors import StudyError
-from riskdiet.model import build_study, kleiber_basal_mj_per_day
+from riskdiet.model import kleiber_basal_mj_per_day
+from riskdiet.validation import build_study
 
 
 def problems_of(raw: dict) -> dict[str, str]:

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from riskdiet.errors import StudyError
-from riskdiet.model import build_study
+from riskdiet.validation import build_study
 
 EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "harrow-vale.json"
 

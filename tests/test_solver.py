@@ -29,8 +29,9 @@ from simulation import process_of, simulate_breeding, simulate_season, wilson_in
 from riskdiet import solver
 from riskdiet.grid import make_grid
 from riskdiet.io import load_study
-from riskdiet.model import Predator, Prey, build_study
+from riskdiet.model import Predator, Prey
 from riskdiet.solver import solve_grid
+from riskdiet.validation import build_study
 
 INVARIANTS = settings(max_examples=40, deadline=None)
 

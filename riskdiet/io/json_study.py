@@ -8,7 +8,8 @@ from pathlib import Path
 
 from riskdiet.errors import Problem, StudyError
 from riskdiet.io.load import file_sha256
-from riskdiet.model import Study, build_study
+from riskdiet.model import Study
+from riskdiet.validation import build_study
 
 
 def read_json_study(path: str | Path) -> Study:

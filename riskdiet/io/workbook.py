@@ -44,7 +44,7 @@ read as blank (the hidden cells are not reported again). Dates are read as
 yes/no, true/false, 1/0 for yes-or-no fields (:func:`riskdiet.fields.coerce`).
 
 The workbook is converted to the JSON layout and validated by
-:func:`riskdiet.model.build_study`, with a :class:`WorkbookLocator` so that
+:func:`riskdiet.validation.build_study`, with a :class:`WorkbookLocator` so that
 every problem names its cell, e.g. ``Prey!E4 (energy_mj)``. Problems found
 while reading the sheets and problems found by the validation are reported
 together, one per cell, in sheet and row order. The input file is only read.
@@ -62,7 +62,8 @@ from riskdiet.errors import Notice, Problem, StudyError, describe
 from riskdiet.fields import field_specs
 from riskdiet.io.load import ACCEPTED, file_sha256
 from riskdiet.io.sheet_table import Table, column_letter, key_of, read_table, sheet_ref
-from riskdiet.model import Predator, Prey, Settings, Study, build_study
+from riskdiet.model import Predator, Prey, Settings, Study
+from riskdiet.validation import build_study
 
 PREDATOR = "Predator"
 PREY = "Prey"

@@ -13,13 +13,7 @@ import math
 from collections.abc import Sequence
 
 from riskdiet.fields import field_defaults, field_specs
-from riskdiet.model import (
-    Predator,
-    Prey,
-    Settings,
-    Study,
-    kleiber_basal_mj_per_day,
-)
+from riskdiet.model import Predator, Prey, Settings, Study, kleiber_basal_mj_per_day
 
 _ESTIMATED = "*"
 

@@ -17,7 +17,7 @@ from conftest import EXAMPLE, INJURY_STUDY
 from riskdiet.errors import StudyError
 from riskdiet.io import load_study
 from riskdiet.io.json_study import read_json_study, study_to_dict
-from riskdiet.model import build_study
+from riskdiet.validation import build_study
 
 
 def _problems(path) -> list:

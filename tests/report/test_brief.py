@@ -31,7 +31,6 @@ from riskdiet.analysis import solve
 from riskdiet.cli import app
 from riskdiet.errors import OutputExistsError, StudyError
 from riskdiet.io import load_study
-from riskdiet.model import build_study
 from riskdiet.report import brief as brief_mod
 from riskdiet.report import figures as figs
 from riskdiet.report.layout import frame_size
@@ -41,6 +40,7 @@ from riskdiet.report.sections import (
     REFERENCES,
     section_titles,
 )
+from riskdiet.validation import build_study
 
 runner = CliRunner()
 MM = 72 / 25.4

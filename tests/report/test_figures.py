@@ -22,8 +22,8 @@ from conftest import INJURY_STUDY, injury_raw
 
 from riskdiet.analysis import CONDITIONS, solve
 from riskdiet.errors import OutputExistsError
-from riskdiet.model import build_study
 from riskdiet.report import figures as figs
+from riskdiet.validation import build_study
 
 MACHADO_SEVERITY_1 = {
     "protanopia": [[0.152286, 1.052583, -0.204868], [0.114503, 0.786281, 0.099216],
