@@ -114,11 +114,18 @@ class BatchSolution:
     iterations: np.ndarray
 
 
-def dense_system(grid: Grid, parts: list[Outcome]) -> tuple[np.ndarray, np.ndarray]:
+def dense_system(grid: Grid, parts: list[Outcome], fortran: bool = False
+                 ) -> tuple[np.ndarray, np.ndarray]:
     """Batched I - P among living states and the one-step breeding chance.
 
     States are ordered condition-major (k m + j - 1), as in
     :func:`riskdiet.solver.transition_matrix`.
+
+    Parameters
+    ----------
+    fortran : bool
+        Lay each matrix out column by column (``system[b]`` is then
+        Fortran-contiguous), as LAPACK wants it, so that factorising needs no copy.
 
     Returns
     -------
@@ -139,11 +146,15 @@ def dense_system(grid: Grid, parts: list[Outcome]) -> tuple[np.ndarray, np.ndarr
             level = np.broadcast_to(level, o.prob.shape)
             alive = (level >= 1) & (level < grid.top)
             top = level >= grid.top
-            col = (row * size + level - 1)[alive]
             mass = o.prob * wt
             healthy = mass * o.healthy_share
             for cond, val in ((0, healthy), (1, mass - healthy)):
-                idx.append(col + cond * m)
+                target = cond * m + level - 1
+                if fortran:  # entry (row, target) stored at [cell, target, row]
+                    flat = (cell * size + target) * size + state
+                else:
+                    flat = row * size + target
+                idx.append(np.broadcast_to(flat, o.prob.shape)[alive])
                 vals.append(val[alive])
             b_idx.append(row[top])
             b_vals.append(mass[top])
@@ -151,6 +162,8 @@ def dense_system(grid: Grid, parts: list[Outcome]) -> tuple[np.ndarray, np.ndarr
     system = np.bincount(np.concatenate(idx), -np.concatenate(vals),
                          minlength=batch * size * size).reshape(batch, size, size)
     system.reshape(batch, size * size)[:, :: size + 1] += 1.0
+    if fortran:
+        system = system.transpose(0, 2, 1)
     breed = np.bincount(np.concatenate(b_idx), np.concatenate(b_vals),
                         minlength=batch * size).reshape(batch, size)
     return system, breed
@@ -164,10 +177,12 @@ def _lu_factor(system: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """
     pivots = np.empty(system.shape[:2], dtype=np.int32)
     for i in range(system.shape[0]):
+        # a Fortran-contiguous matrix is factorised where it lies; others are copied
         lu, piv, info = _getrf(system[i], overwrite_a=True)
         if info < 0:  # pragma: no cover - an argument error cannot happen here
             raise ValueError(f"getrf argument {-info} invalid")
-        system[i] = lu
+        if not np.shares_memory(lu, system[i]):
+            system[i] = lu
         pivots[i] = piv
     return system, pivots
 
@@ -248,7 +263,7 @@ def _solve(grid, initial_values, extra_direct, max_iterations) -> BatchSolution:
         sub = take_cells(grid, active)
         tg = targets(sub)
         attack_prob = attack_probabilities(sub.encounter_prob, priority)
-        system, breed = dense_system(sub, outcomes(sub, tg, attack_prob))
+        system, breed = dense_system(sub, outcomes(sub, tg, attack_prob), fortran=True)
         factors = _lu_factor(system)
         v = sla.lu_solve(factors, breed[..., None], check_finite=False)[..., 0]
         values[active, :, 1:top] = v.reshape(-1, 2, m)
