@@ -243,9 +243,10 @@ class Split:
 
 def gather(v: np.ndarray, index: np.ndarray) -> np.ndarray:
     """``v[..., index]`` per batch: v has shape (*B, L), index (*B, *S) -> (*B, *S)."""
+    if v.ndim == 1:  # a single grid: plain indexing is the fast path
+        return v[index]
     batch = v.shape[:-1]
-    flat = index.reshape(*batch, -1) if batch else index.reshape(-1)
-    return np.take_along_axis(v, flat, -1).reshape(index.shape)
+    return np.take_along_axis(v, index.reshape(*batch, -1), -1).reshape(index.shape)
 
 
 def split(y: np.ndarray, top: int) -> Split:

@@ -153,6 +153,10 @@ class Solution:
 
 def _cap_interp(v_cap: np.ndarray, cond: int, s: Split) -> np.ndarray:
     """Interpolate per-prey value rows ``v_cap[..., i, cond, :]`` at capture splits (…, m, P)."""
+    if v_cap.ndim == 3:  # a single grid: plain indexing is the fast path
+        prey = np.arange(v_cap.shape[0])
+        return ((1.0 - s.weight) * v_cap[prey, cond, s.low]
+                + s.weight * v_cap[prey, cond, s.low + 1])
     rows = v_cap[..., cond, :]                                  # (*B, P, L)
     low = np.swapaxes(s.low, -1, -2)                            # (*B, P, m)
     w = np.swapaxes(s.weight, -1, -2)
