@@ -267,10 +267,6 @@ def solve_scenario(study: Study, scenario: Scenario) -> ScenarioResult:
     )
 
 
-def _run_one(study: Study, scenario: Scenario) -> ScenarioResult:
-    return solve_scenario(study, scenario)
-
-
 def solve(study: Study, executor: Executor | None = None) -> StudyResult:
     """Solve every scenario of a study.
 
@@ -288,9 +284,10 @@ def solve(study: Study, executor: Executor | None = None) -> StudyResult:
     """
     request_from_settings(study)  # a bad map request fails before any work
     if executor is None:
-        results = [_run_one(study, s) for s in study.scenarios]
+        results = [solve_scenario(study, s) for s in study.scenarios]
     else:
-        results = list(executor.map(_run_one, [study] * len(study.scenarios), study.scenarios))
+        results = list(executor.map(solve_scenario, [study] * len(study.scenarios),
+                                    study.scenarios))
     from riskdiet.findings import findings
 
     baseline = results[0]

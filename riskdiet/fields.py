@@ -117,6 +117,17 @@ def field_defaults(cls: type) -> dict[str, Any]:
     return {f.name: f.default for f in dataclasses.fields(cls) if "spec" in f.metadata}
 
 
+def display(value: Any, blank: str = "", number: str = "g") -> str:
+    """An input value as a person reads it: yes/no for booleans, ``number`` format for floats."""
+    if value is None:
+        return blank
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float):
+        return format(value, number)
+    return str(value)
+
+
 def is_blank(value: Any) -> bool:
     """Blank cells and empty strings count as not given."""
     return value is None or (isinstance(value, str) and value.strip() == "")

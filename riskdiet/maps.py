@@ -20,17 +20,19 @@ import functools
 import itertools
 import math
 from collections.abc import Callable
-from concurrent.futures import Executor
+from concurrent.futures import Executor, as_completed
 from dataclasses import dataclass
 
 import numpy as np
 
+from riskdiet.batch import solve_breeding_batch
+from riskdiet.chain import season_outlook
 from riskdiet.errors import Problem, StudyError, describe
 from riskdiet.fields import INTEGER, field_specs
-from riskdiet.grid import Grid, make_grid, make_grids, targets
+from riskdiet.grid import Grid, attack_probabilities, make_grid, make_grids, take_cells, targets
 from riskdiet.model import BASELINE, Predator, Prey, Study, round_half_up
 from riskdiet.regimes import classify
-from riskdiet.solver import _bellman, step_values
+from riskdiet.solver import _bellman, solve_season, step_values
 from riskdiet.validation import check_values
 
 SHARE = "encounter_share"
@@ -329,8 +331,6 @@ def _gradient_inputs(pred: Predator, prey: tuple[Prey, ...], target: tuple[str |
 
 def _policy_fixed_step(grid: Grid, values: np.ndarray, priority: np.ndarray) -> np.ndarray:
     """One Bellman step under a fixed policy, batched: T_pi(V), shape (B, 2, m)."""
-    from riskdiet.grid import attack_probabilities
-
     tg = targets(grid)
     n_prey = grid.n_prey
     ignore, attack, _ = step_values(grid, tg, values,
@@ -342,8 +342,6 @@ def _policy_fixed_step(grid: Grid, values: np.ndarray, priority: np.ndarray) -> 
 def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
                ) -> tuple[dict, dict]:
     """Solve one map row; returns per-cell results and the fitness history for the next."""
-    from riskdiet.batch import solve_breeding_batch
-
     nx = request.x.steps
     y = request.y.values[iy]
     base = study.inputs_for(study.scenario(request.scenario))
@@ -368,8 +366,6 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
                 steps = np.array([hi[1] for hi, _ in shifted])
 
                 def extra(idx, values, priority, gp=gp, gm=gm, steps=steps):
-                    from riskdiet.grid import take_cells
-
                     hi = _policy_fixed_step(take_cells(gp, idx), values, priority)
                     lo = _policy_fixed_step(take_cells(gm, idx), values, priority)
                     return (hi - lo) / (2.0 * steps[idx])[:, None, None]
@@ -386,9 +382,6 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
                 out["residual"][i] = sol.residual[n]
                 _regimes(out, i, sol.priority[n] >= 0, inputs[i][1], batch)
         else:
-            from riskdiet.chain import season_outlook
-            from riskdiet.solver import solve_season
-
             for i in cells:
                 grid = make_grid(*inputs[i])
                 sol = solve_season(grid)
@@ -425,8 +418,6 @@ def _extrapolate(history: list[np.ndarray], cells: int) -> np.ndarray | None:
 
 def _season_gradient(inputs, target) -> float:
     """Season currency: central difference with the policy of every day held fixed."""
-    from riskdiet.solver import solve_season
-
     (plus, step), (minus, _) = (_gradient_inputs(*inputs, target, +1),
                                 _gradient_inputs(*inputs, target, -1))
     base = solve_season(make_grid(*inputs))
@@ -436,8 +427,6 @@ def _season_gradient(inputs, target) -> float:
 
 def _fixed_season_value(grid: Grid, base) -> float:
     """Season fitness at start of ``grid`` under the day-by-day policy of ``base``."""
-    from riskdiet.grid import attack_probabilities
-
     tg = targets(grid)
     days = grid.season_days
     values = np.zeros((days + 1, 2, grid.n + 1))
@@ -516,8 +505,6 @@ def make_map(study: Study, request: MapRequest, executor: Executor | None = None
             if progress:
                 progress(done, ny)
     else:
-        from concurrent.futures import as_completed
-
         futures = {executor.submit(_solve_band, study, request, c): c for c in chunks}
         for fut in as_completed(futures):
             for iy, out in fut.result():

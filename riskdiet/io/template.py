@@ -38,6 +38,7 @@ from riskdiet.fields import (
     NUMBER,
     TEXT,
     FieldSpec,
+    display,
     field_defaults,
     field_specs,
 )
@@ -103,22 +104,12 @@ _README_TEXT = (
 )
 
 
-def _default_text(value: Any) -> str:
-    if value is None:
-        return ""
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if isinstance(value, float):
-        return f"{value:g}"
-    return str(value)
-
-
 def _field_comment(name: str, spec: FieldSpec, default: Any) -> str:
     lines = [f"{name} [{spec.unit}]", spec.description, f"Allowed: {spec.expected()}."]
     if spec.required:
         lines.append("Required.")
     elif default is not None:
-        lines.append(f"Default: {_default_text(default)}.")
+        lines.append(f"Default: {display(default)}.")
     return "\n".join(lines)
 
 
@@ -239,7 +230,7 @@ def _readme_sheet(ws: Any) -> None:
     for sheet, cls in ((PREDATOR, Predator), (PREY, Prey), (SETTINGS, Settings)):
         defaults = field_defaults(cls)
         for name, spec in field_specs(cls).items():
-            default = "required" if spec.required else _default_text(defaults[name])
+            default = "required" if spec.required else display(defaults[name])
             row = (sheet, name, spec.unit, spec.expected(), default, spec.description)
             for c, value in enumerate(row, start=1):
                 ws.cell(row=r, column=c, value=value).alignment = wrap

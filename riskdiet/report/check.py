@@ -12,20 +12,14 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
-from riskdiet.fields import field_defaults, field_specs
+from riskdiet.fields import display, field_defaults, field_specs
 from riskdiet.model import Predator, Prey, Settings, Study, kleiber_basal_mj_per_day
 
 _ESTIMATED = "*"
 
 
 def _value(value: object) -> str:
-    if value is None:
-        return "(blank)"
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if isinstance(value, float):
-        return f"{value:.4g}"
-    return str(value)
+    return display(value, blank="(blank)", number=".4g")
 
 
 def table(header: Sequence[str], rows: Sequence[Sequence[str]], indent: str = "  ",

@@ -20,6 +20,7 @@ from riskdiet.report.figures import (
     BriefFigure,
     _style,
     hatch_colour,
+    slug,
 )
 
 
@@ -115,7 +116,7 @@ def first_unwanted_group(groups: list[str]) -> str:
 def figure_keys(group: str, first: int = 1) -> list[str]:
     """File stems of the three map figures (regimes, hunting ability, kills of ``group``)."""
     return [f"{first:02d}-map-regimes", f"{first + 1:02d}-map-hunting-ability",
-            f"{first + 2:02d}-map-kills-{group.replace(' ', '-')}"]
+            f"{first + 2:02d}-map-kills-{slug(group)}"]
 
 
 def kills_figure(result: MapResult, group: str) -> object:
