@@ -19,13 +19,27 @@ import numpy as np
 
 import riskdiet
 from riskdiet.classic import ClassicResult, classic_prey_model
+from riskdiet.errors import SolveError
 from riskdiet.grid import Grid, make_grid
+from riskdiet.grid_check import GridCheck, coarse_predator, compare_grids, not_possible
 from riskdiet.maps import MapResult, make_map, request_from_settings
 from riskdiet.model import Predator, Prey, Scenario, Study
-from riskdiet.predictions import SeasonKills, SteadyStateKills, season_kills, steady_state_kills
+from riskdiet.predictions import (
+    CohortKills,
+    SeasonKills,
+    SteadyStateKills,
+    cohort_kills,
+    season_kills,
+    steady_state_kills,
+)
 from riskdiet.solver import Solution, solve_grid
 
 CONDITIONS = ("healthy", "injured")
+
+VIABLE_BREEDING = 0.5
+"""Below this chance of reaching breeding condition a release is called failing."""
+VIABLE_MEDIAN_DAYS = 60
+"""A median survival of the released animals shorter than this is called failing [day]."""
 
 
 @dataclass(frozen=True)
@@ -77,10 +91,10 @@ class ScenarioResult:
         For each condition and level, the prey worth attacking, best first.
     marginal_hunting_ability : float
         dV(j0, healthy)/da, policy held fixed [probability per unit ability].
-    elasticity : float
-        (a / V) dV/da [dimensionless]; NaN when V = 0.
+    elasticity : float or None
+        (a / V) dV/da [dimensionless]; None when V = 0 (undefined).
     residual : float
-        Final Bellman residual.
+        Final Bellman residual relative to the values (MODEL.md section 3).
     grid, solution
         The discretised inputs and the numeric-core solution, for downstream
         analyses (figures, maps).
@@ -90,6 +104,15 @@ class ScenarioResult:
         Long-run kill predictions (breeding currency).
     season_kills : SeasonKills or None
         Kill predictions over the season (season currency).
+    cohort : CohortKills or None
+        The released animals' kills, survival and breeding within the
+        planning horizon (MODEL.md section 5).
+    grid_check : GridCheck or None
+        Whether the answer still depends on the number of energy levels
+        (MODEL.md section 8).
+    viability : str or None
+        A plain warning when the released animals mostly die before breeding
+        or within weeks; the kill numbers then describe a failing release.
     findings : tuple of str
         Plain-language sentences derived from the numbers.
     """
@@ -103,7 +126,7 @@ class ScenarioResult:
     fitness_at_start: float
     policy: dict[str, list[list[str]]]
     marginal_hunting_ability: float
-    elasticity: float
+    elasticity: float | None
     residual: float
     iterations: int
     converged: bool
@@ -113,6 +136,9 @@ class ScenarioResult:
     classic: ClassicResult | None = None
     kills: SteadyStateKills | None = None
     season_kills: SeasonKills | None = None
+    cohort: CohortKills | None = None
+    grid_check: GridCheck | None = None
+    viability: str | None = None
     findings: tuple[str, ...] = ()
 
     @property
@@ -152,6 +178,9 @@ class ScenarioResult:
             "classic": self.classic.to_dict() if self.classic else None,
             **({"steady_state": self.kills.to_dict()} if self.kills else {}),
             **({"season": self.season_kills.to_dict()} if self.season_kills else {}),
+            "cohort": self.cohort.to_dict() if self.cohort else None,
+            "grid_check": self.grid_check.to_dict() if self.grid_check else None,
+            "viability_warning": self.viability,
             "findings": list(self.findings),
         }
 
@@ -223,11 +252,91 @@ def policy_names(priority: np.ndarray, names: list[str]) -> list[list[str]]:
     return out
 
 
-def solve_scenario(study: Study, scenario: Scenario) -> ScenarioResult:
-    """Solve one scenario of a study (pure function of its inputs)."""
-    predator, prey = study.inputs_for(scenario)
+@dataclass(frozen=True)
+class _Numbers:
+    """The state-dependent numbers of one set of inputs."""
+
+    grid: Grid
+    solution: Solution
+    kills: SteadyStateKills | None
+    season: SeasonKills | None
+    cohort: CohortKills
+
+
+def _numbers(predator: Predator, prey: tuple[Prey, ...], horizon_days: int) -> _Numbers:
     grid = make_grid(predator, prey)
     solution = solve_grid(grid)
+    if grid.currency == "breeding":
+        kills, season = steady_state_kills(predator, prey, grid, solution), None
+    else:
+        kills, season = None, season_kills(predator, prey, grid, solution)
+    cohort = cohort_kills(predator, prey, grid, solution, horizon_days)
+    return _Numbers(grid, solution, kills, season, cohort)
+
+
+def _long_run(numbers: _Numbers) -> tuple[dict[str, float], dict[str, float]]:
+    """Long-run kills per predator per year (season: per season), by prey and group."""
+    if numbers.kills is not None:
+        return (numbers.kills.kills_per_predator_per_year,
+                numbers.kills.kills_per_predator_per_year_by_group)
+    return numbers.season.expected_kills, numbers.season.expected_kills_by_group
+
+
+def grid_check(predator: Predator, prey: tuple[Prey, ...], horizon_days: int,
+               fine: _Numbers) -> GridCheck:
+    """MODEL.md section 8: the same scenario at n' levels, compared with n."""
+    n = predator.energy_levels
+    coarse = coarse_predator(predator)
+    if coarse is None:
+        return not_possible(n, "grid check not possible: the breeding level would be below 2 "
+                            "on the check's grid")
+    try:
+        other = _numbers(coarse, prey, horizon_days)
+    except SolveError as err:
+        return not_possible(n, f"the solve on the check's grid failed: {err.reason}")
+    k_other, g_other = _long_run(other)
+    k_fine, g_fine = _long_run(fine)
+    return compare_grids(
+        (coarse.energy_levels, n),
+        (other.solution.fitness_at_start, fine.solution.fitness_at_start),
+        (k_other, k_fine), (g_other, g_fine),
+        (other.cohort.kills, fine.cohort.kills),
+        (other.cohort.kills_by_group, fine.cohort.kills_by_group))
+
+
+def viability(currency: str, fitness_at_start: float, cohort: CohortKills) -> str | None:
+    """A plain warning when the released animals mostly fail (None when they do not)."""
+    reasons = []
+    if fitness_at_start < VIABLE_BREEDING:
+        what = ("reach breeding condition" if currency == "breeding"
+                else "end the season alive and in condition")
+        reasons.append(f"only {100 * fitness_at_start:.0f} % of released animals are expected "
+                       f"to {what}")
+    median = cohort.median_survival_days
+    if median is not None and median < VIABLE_MEDIAN_DAYS:
+        reasons.append(f"half of them are expected to be dead within {median} days")
+    if not reasons:
+        return None
+    return ("This release looks like it would fail: " + " and ".join(reasons) + ". The kill "
+            "numbers then describe a failing release; revisit the release plan before relying "
+            "on them.")
+
+
+def solve_scenario(study: Study, scenario: Scenario) -> ScenarioResult:
+    """Solve one scenario of a study (pure function of its inputs).
+
+    Raises
+    ------
+    SolveError
+        Naming the scenario, when its solve cannot be vouched for.
+    """
+    predator, prey = study.inputs_for(scenario)
+    horizon = study.settings.horizon_days
+    try:
+        numbers = _numbers(predator, prey, horizon)
+    except SolveError as err:
+        raise err.located(f"scenario {scenario.name!r}") from None
+    grid, solution = numbers.grid, numbers.solution
     names = [p.name for p in prey]
     reserves = np.arange(grid.n + 1) * grid.step_mj
     classic = classic_prey_model(
@@ -240,10 +349,6 @@ def solve_scenario(study: Study, scenario: Scenario) -> ScenarioResult:
         predator.background_mortality,
         predator.effective_daily_cost_mj,
     )
-    if grid.currency == "breeding":
-        kills, season = steady_state_kills(predator, prey, grid, solution), None
-    else:
-        kills, season = None, season_kills(predator, prey, grid, solution)
     return ScenarioResult(
         name=scenario.name,
         currency=grid.currency,
@@ -262,8 +367,11 @@ def solve_scenario(study: Study, scenario: Scenario) -> ScenarioResult:
         grid=grid,
         solution=solution,
         classic=classic,
-        kills=kills,
-        season_kills=season,
+        kills=numbers.kills,
+        season_kills=numbers.season,
+        cohort=numbers.cohort,
+        grid_check=grid_check(predator, prey, horizon, numbers),
+        viability=viability(grid.currency, solution.fitness_at_start, numbers.cohort),
     )
 
 

@@ -33,17 +33,23 @@ import scipy.linalg as sla
 from scipy.linalg.lapack import dgetrf as _getrf
 from threadpoolctl import threadpool_limits
 
+from riskdiet.choice import (
+    choice_values,
+    default_sets,
+    keep_unless_better,
+    relative_residual,
+)
 from riskdiet.errors import RiskdietError
 from riskdiet.grid import (
     Grid,
     Outcome,
     attack_probabilities,
+    death_chances,
     outcomes,
-    rank_attacks,
     take_cells,
     targets,
 )
-from riskdiet.solver import MAX_POLICY_ITERATIONS, _bellman, step_values
+from riskdiet.solver import MAX_POLICY_ITERATIONS, RESIDUAL_LIMIT, SINGULAR, SUM_LIMIT
 
 _BLAS_LOCK = threading.Lock()
 _BLAS_USERS = 0
@@ -76,6 +82,9 @@ def _one_blas_thread() -> Iterator[None]:
                 _BLAS_LIMIT = None
 
 
+NEVER_DIES = 1e-9
+"""U(j_rho) below this: the animal practically never dies (MODEL.md section 5)."""
+
 SUB_BATCH = 128
 """Cells solved together. Larger batches spread numpy's per-call overhead over more
 cells; beyond about 128 cells of 200 unknowns the dense systems stop fitting in
@@ -105,6 +114,9 @@ class BatchSolution:
         Bellman residual of each cell.
     iterations : ndarray of int, shape (B,)
         Policy-iteration rounds of each cell.
+    failures : tuple of (str or None)
+        Per cell: None when the solve is exact, else why it failed (the cell's
+        numbers are then zeros and must not be shown).
     """
 
     fitness: np.ndarray
@@ -115,6 +127,12 @@ class BatchSolution:
     kills_per_day: np.ndarray
     residual: np.ndarray
     iterations: np.ndarray
+    failures: tuple[str | None, ...] = ()
+
+    @property
+    def failed(self) -> np.ndarray:
+        """Indices of the cells whose solve failed."""
+        return np.array([i for i, f in enumerate(self.failures) if f is not None], dtype=int)
 
 
 def dense_system(grid: Grid, parts: list[Outcome], fortran: bool = False
@@ -197,8 +215,7 @@ def kill_probabilities(grid: Grid, attack_prob: np.ndarray) -> np.ndarray:
             * grid.capture[..., :, None, :])
 
 
-def solve_breeding_batch(grid: Grid, initial_values: np.ndarray | None = None,
-                         extra_direct=None,
+def solve_breeding_batch(grid: Grid, extra_direct=None,
                          max_iterations: int = MAX_POLICY_ITERATIONS) -> BatchSolution:
     """Solve a batch of breeding-currency studies by batched policy iteration.
 
@@ -206,11 +223,6 @@ def solve_breeding_batch(grid: Grid, initial_values: np.ndarray | None = None,
     ----------
     grid : Grid
         A stacked grid (:func:`riskdiet.grid.stack_grids`), breeding currency.
-    initial_values : ndarray, shape (B, 2, top + 1), optional
-        Values whose greedy policies start the iteration, e.g. the solved
-        fitness of the neighbouring map row: its greedy policy for this cell's
-        own numbers is usually already optimal, so most cells need a single
-        round. By default a linear value ramp, as in the single solver.
     extra_direct : callable, optional
         ``extra_direct(index, values, priority) -> (C, 2, m)``: the derivative of
         the one-step value with respect to a further input at fixed values and
@@ -221,6 +233,10 @@ def solve_breeding_batch(grid: Grid, initial_values: np.ndarray | None = None,
     Returns
     -------
     BatchSolution
+        Every cell equals :func:`riskdiet.solver.solve_breeding` of its own
+        grid: the iteration starts from the same default policy and keeps
+        incumbents on the same rule (MODEL.md section 3). A cell whose solve
+        fails is named in ``failures``, never returned as numbers.
     """
     if grid.currency != "breeding":
         raise RiskdietError("batched solving covers the breeding currency only")
@@ -231,89 +247,121 @@ def solve_breeding_batch(grid: Grid, initial_values: np.ndarray | None = None,
         # parallelism comes from running independent chunks in separate workers
         for lo in range(0, batch, SUB_BATCH):
             cells = np.arange(lo, min(lo + SUB_BATCH, batch))
-            start = None if initial_values is None else initial_values[cells]
             extra = (None if extra_direct is None else
                      (lambda idx, v, p, cells=cells: extra_direct(cells[idx], v, p)))
-            pieces.append(_solve(take_cells(grid, cells), start, extra, max_iterations))
+            pieces.append(_solve(take_cells(grid, cells), extra, max_iterations))
     if len(pieces) == 1:
         return pieces[0]
-    return BatchSolution(*(None if getattr(pieces[0], f) is None else
-                           np.concatenate([getattr(p, f) for p in pieces])
-                           for f in BatchSolution.__dataclass_fields__))
+    arrays = {f: None if getattr(pieces[0], f) is None else
+              np.concatenate([getattr(p, f) for p in pieces])
+              for f in BatchSolution.__dataclass_fields__ if f != "failures"}
+    return BatchSolution(**arrays, failures=tuple(f for p in pieces for f in p.failures))
 
 
-def _solve(grid, initial_values, extra_direct, max_iterations) -> BatchSolution:
+def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
     batch = grid.cost.shape[0]
     m, n_prey, top = grid.n_living, grid.n_prey, grid.top
-    tg_all = targets(grid)
     values = np.zeros((batch, 2, top + 1))
     values[..., top] = 1.0
-    values[..., 1:top] = np.arange(1, top) / top
-    if initial_values is not None:
-        values[..., 1:top] = np.asarray(initial_values)[..., 1:top]
-    ignore, attack, _ = step_values(grid, tg_all, values,
-                                    np.broadcast_to(values[:, None], (batch, n_prey, 2, top + 1)))
-    priority = rank_attacks(attack, ignore)
-    out_priority = np.empty((batch, 2, m, n_prey), dtype=np.int8)
+    comps = np.ones((batch, 2, top + 1))
+    comps[..., top] = 0.0
+    priority = default_sets(grid, targets(grid))
+    out_priority = np.zeros((batch, 2, m, n_prey), dtype=np.int8)
     start = np.zeros(batch)
     marginal = np.zeros(batch)
     extra = np.zeros(batch) if extra_direct is not None else None
     kills = np.zeros((batch, n_prey))
     residual = np.zeros(batch)
     rounds = np.zeros(batch, dtype=np.int64)
+    failures: list[str | None] = [None] * batch
     active = np.arange(batch)
     for iteration in range(1, max_iterations + 1):
         sub = take_cells(grid, active)
         tg = targets(sub)
         attack_prob = attack_probabilities(sub.encounter_prob, priority)
-        system, breed = dense_system(sub, outcomes(sub, tg, attack_prob), fortran=True)
+        parts = outcomes(sub, tg, attack_prob)
+        system, breed = dense_system(sub, parts, fortran=True)
+        death = death_chances(sub, tg, attack_prob, parts).sum(-3).reshape(len(active), -1)
         factors = _lu_factor(system)
-        v = sla.lu_solve(factors, breed[..., None], check_finite=False)[..., 0]
-        values[active, :, 1:top] = v.reshape(-1, 2, m)
-        full = values[active]
-        ignore, attack, d_attack = step_values(
-            sub, tg, full, np.broadcast_to(full[:, None], (len(active), n_prey, 2, top + 1)))
-        improved = rank_attacks(attack, ignore)
-        done = (improved == priority).reshape(len(active), -1).all(axis=1)
+        rhs = np.stack([breed, death], axis=-1)
+        with np.errstate(all="ignore"):
+            sol = sla.lu_solve(factors, rhs, check_finite=False)
+        v, u = sol[..., 0], sol[..., 1]
+        bad = ~(np.isfinite(v).all(-1) & np.isfinite(u).all(-1))
+        worst = np.where(bad, np.inf, np.abs(v + u - 1.0).max(-1, initial=0.0))
+        inexact = ~bad & ((worst > SUM_LIMIT) | (v.min(-1, initial=0.0) < -SUM_LIMIT)
+                          | (u.min(-1, initial=0.0) < -SUM_LIMIT))
+        values[active, :, 1:top] = np.where(bad[:, None], 0.0, v).reshape(-1, 2, m)
+        comps[active, :, 1:top] = np.where(bad[:, None], 1.0, u).reshape(-1, 2, m)
+        full, full_u = values[active], comps[active]
+        cap = (len(active), n_prey, 2, top + 1)
+        cv = choice_values(sub, tg, full, full_u, np.broadcast_to(full[:, None], cap),
+                           np.broadcast_to(full_u[:, None], cap))
+        improved, switched = keep_unless_better(sub, cv, priority)
+        done = ~switched.reshape(len(active), -1).any(axis=1) | bad | inexact
         if iteration == max_iterations:
+            for c in active[~done]:
+                failures[c] = f"policy iteration did not settle within {max_iterations} rounds"
             done[:] = True
+        for c, is_bad, is_inexact, w in zip(active, bad, inexact, worst, strict=True):
+            if is_bad:
+                failures[c] = SINGULAR.format(round=iteration)
+            elif is_inexact:
+                failures[c] = (f"the values of the attack policy of policy-iteration round "
+                               f"{iteration} are inexact (a chance and its complement differ "
+                               f"from 1 by {w:.1e})")
         if done.any():
             cells = active[done]
             keep = np.flatnonzero(done)
             rounds[cells] = iteration
             out_priority[cells] = priority[keep]
-            greedy = attack_probabilities(sub.encounter_prob[keep], improved[keep])
-            residual[cells] = np.abs(
-                _bellman(take_cells(sub, keep), ignore[keep], attack[keep], greedy)
-                - full[keep][..., 1:top]).reshape(len(keep), -1).max(axis=1)
             part = take_cells(sub, keep)
+            cv_keep = type(cv)(*(getattr(cv, f)[keep] for f in cv.__dataclass_fields__))
+            res = relative_residual(part, cv_keep, full[keep][..., 1:top],
+                                    full_u[keep][..., 1:top]).reshape(len(keep), -1).max(axis=1)
+            residual[cells] = res
+            for c, r in zip(cells, res, strict=True):
+                if failures[c] is None and not (np.isfinite(r) and r <= RESIDUAL_LIMIT):
+                    failures[c] = (f"the optimality check failed: the Bellman residual "
+                                   f"relative to the values is {r:.1e}, above the accepted "
+                                   f"{RESIDUAL_LIMIT:.0e}")
             piece = (factors[0][keep], factors[1][keep])
             start_idx = part.start_level - 1
             alive = (1.0 - part.mortality)[..., :, None]
             ap = attack_prob[keep]
-            direct = alive * (ap * d_attack[keep] * part.capture_slope[..., :, None, :]).sum(-1)
+            direct = alive * (ap * cv.d_attack[keep]
+                              * part.capture_slope[..., :, None, :]).sum(-1)
             unit = np.zeros((len(keep), 2 * m, 2))
             unit[np.arange(len(keep)), start_idx, 0] = 1.0
             unit[np.arange(len(keep)), part.after_breeding_level - 1, 1] = 1.0
-            rows = sla.lu_solve(piece, unit, trans=1, check_finite=False)
+            with np.errstate(all="ignore"):
+                rows = sla.lu_solve(piece, unit, trans=1, check_finite=False)
             from_start, from_restart = rows[..., 0], rows[..., 1]
             start[cells] = full[keep, 0, part.start_level]
             marginal[cells] = (from_start * direct.reshape(len(keep), -1)).sum(-1)
             if extra_direct is not None:
                 d_extra = extra_direct(cells, full[keep], priority[keep])
                 extra[cells] = (from_start * d_extra.reshape(len(keep), -1)).sum(-1)
-            kills[cells] = _kill_rates(part, ap, from_start, from_restart,
-                                       full[keep, 0, part.start_level],
-                                       full[keep, 0, part.after_breeding_level])
+            with np.errstate(all="ignore"):
+                kills[cells] = _kill_rates(part, ap, from_start, from_restart,
+                                           full[keep, 0, part.start_level],
+                                           full_u[keep, 0, part.after_breeding_level])
         priority = improved[~done]
         active = active[~done]
         if active.size == 0:
             break
-    return BatchSolution(values, out_priority, start, marginal, extra, kills, residual, rounds)
+    for c, f in enumerate(failures):
+        if f is not None:  # never leave numbers behind that could be shown
+            start[c] = marginal[c] = residual[c] = 0.0
+            kills[c] = 0.0
+            if extra is not None:
+                extra[c] = 0.0
+    return BatchSolution(values, out_priority, start, marginal, extra, kills, residual, rounds,
+                         tuple(failures))
 
 
 def _kill_rates(grid: Grid, attack_prob: np.ndarray, from_start: np.ndarray,
-                from_restart: np.ndarray, v_start: np.ndarray, v_restart: np.ndarray
+                from_restart: np.ndarray, v_start: np.ndarray, u_restart: np.ndarray
                 ) -> np.ndarray:
     """Long-run kills per day from the visits of one newcomer's life.
 
@@ -323,13 +371,14 @@ def _kill_rates(grid: Grid, attack_prob: np.ndarray, from_start: np.ndarray,
     breeding reset). Normalised, x is the stationary distribution of the chain
     with both resets (renewal-reward), so kills per day = x.kill / x.days. When
     the predator cannot die (V(j_rho) = 1) the long run is the cycle between
-    breedings, whose visits are w.
+    breedings, whose visits are w. "Cannot die" means practically never:
+    U(j_rho) < 1e-9 (MODEL.md section 5), as in :func:`riskdiet.chain.steady_state`.
     """
     kill = kill_probabilities(grid, attack_prob).reshape(attack_prob.shape[0], -1,
                                                          grid.n_prey)
     days = 1.0 + (kill * grid.handling[:, None, :]).sum(-1)
-    forever = v_restart >= 1.0 - 1e-12
-    scale = np.where(forever, 0.0, v_start / np.where(forever, 1.0, 1.0 - v_restart))
+    forever = u_restart < NEVER_DIES
+    scale = np.where(forever, 0.0, v_start / np.where(forever, 1.0, u_restart))
     visits = np.where(forever[:, None], from_restart, from_start + scale[:, None] * from_restart)
     per_step = np.einsum("bs,bsp->bp", visits, kill)
     return per_step / (visits * days).sum(-1)[:, None]

@@ -44,11 +44,27 @@ from scipy.sparse.csgraph import breadth_first_order
 from scipy.sparse.linalg import splu
 
 from riskdiet.errors import RiskdietError
-from riskdiet.grid import Grid, Outcome, Targets, attack_probabilities, outcomes, targets
+from riskdiet.grid import (
+    Grid,
+    Outcome,
+    Targets,
+    attack_probabilities,
+    death_chances,
+    outcomes,
+    targets,
+)
 from riskdiet.solver import LinearSolve, Solution, transition_matrix
 
 DEATH_CAUSES = ("starvation", "attack", "other")
 """Order of the death causes in :attr:`ChainStep.deaths`."""
+
+NEVER_DIES = 1e-9
+"""U(j_rho, healthy) below this: the animal practically never dies (MODEL.md section 5)."""
+
+NEVER_DIES_NOTE = ("the animal practically never dies (its chance of dying before the next "
+                   "breeding event is below 1e-9), so a lifetime and the breeding events of "
+                   "one life are unbounded; long-run rates are those of the cycle between "
+                   "breeding events")
 
 NEGATIVE_TOLERANCE = 1e-9
 """Largest negative expected visit count (relative to the largest) put down to rounding."""
@@ -132,16 +148,7 @@ def death_probabilities(grid: Grid, tg: Targets, attack_prob: np.ndarray,
         ((1 - mu_k) sum_i P_i f_i) and other causes
         (mu_k + (1 - mu_k) sum_i P_i (1 - f_i) s_i^k (1 - (1 - mu_k)^h_i)).
     """
-    starvation = np.zeros(attack_prob.shape[:2])
-    for o in parts:
-        on_zero = (o.split.low == 0) * (1.0 - o.split.weight)
-        starvation += (o.prob * on_zero).sum(-1)
-    alive = (1.0 - grid.mortality)[:, None]
-    attack = alive * (attack_prob * grid.fatality).sum(-1)
-    handling_death = (kill_probabilities(grid, attack_prob)
-                      * (1.0 - tg.survive_handling[:, None, :])).sum(-1)
-    other = grid.mortality[:, None] + handling_death
-    return np.stack([starvation, attack, other])
+    return death_chances(grid, tg, attack_prob, parts)
 
 
 def chain_step(grid: Grid, priority: np.ndarray, tg: Targets | None = None) -> ChainStep:
@@ -320,10 +327,12 @@ class SteadyState:
     expected_lifetime_days : float
         Expected days lived by a newcomer at (j0, healthy), breeding events
         continuing at (j_rho, healthy): N row of the start times E[days | s];
-        the step in which it dies counts in full. ``math.inf`` when it can live
-        forever (some state it can reach cannot lead to death).
+        the step in which it dies counts in full. ``math.inf`` when it
+        practically never dies (U(j_rho, healthy) < 1e-9, MODEL.md section 5).
     expected_breeding_events : float
         Expected breeding events over a newcomer's life (``math.inf`` as above).
+    lifetime_note : str or None
+        Why the lifetime is unbounded, when it is.
     first_breeding_probability : float
         Chance that a newcomer reaches breeding condition before dying; equals
         the breeding-currency fitness V(j0, healthy).
@@ -350,6 +359,7 @@ class SteadyState:
     stationary: np.ndarray
     kill_prob: np.ndarray
     days_per_step: np.ndarray
+    lifetime_note: str | None = None
 
 
 def steady_state(grid: Grid, solution: Solution) -> SteadyState:
@@ -377,11 +387,11 @@ def steady_state(grid: Grid, solution: Solution) -> SteadyState:
     K_i = N[j0] P(kill i | .) / N[j0] E[days | .] [1]_, [2]_. This equals the
     solution of pi M = pi, sum pi = 1 for the chain M with both resets.
 
-    When a newcomer can live forever, it does so after a breeding event (every
-    path ends in death or breeding, since c > 0); the long run then repeats the
-    cycles from (j_rho, healthy) to the next breeding event, and pi is the
-    normalised visits of that cycle under P. Lifetime and breeding events are
-    then infinite.
+    When a newcomer practically never dies (U(j_rho, healthy) < 1e-9, MODEL.md
+    section 5), the long run repeats the cycles from (j_rho, healthy) to the
+    next breeding event, and pi is the normalised visits of that cycle under
+    P. Lifetime and breeding events are then unbounded (``math.inf``, with
+    ``lifetime_note`` saying why).
 
     The first breeding and the causes of death before it are the absorption
     probabilities of P with breeding and the three death causes as absorbing
@@ -409,14 +419,18 @@ def steady_state(grid: Grid, solution: Solution) -> SteadyState:
     reset = sp.csr_matrix((step.breed[bred], (bred, np.full(bred.size, restart))),
                           shape=(size, size))
     life_chain = (step.transitions + reset).tocsr()
-    if always_absorbed(life_chain, death, start):
+    never_dies = (solution.complement is not None
+                  and solution.complement[0, grid.after_breeding_level] < NEVER_DIES)
+    if not never_dies and always_absorbed(life_chain, death, start):
         life = absorbing_summary(life_chain, death, start, step.days)
         visits = life.visits
         lifetime = life.time
         breeding_events = float(visits @ step.breed)
+        note = None
     else:
         visits = absorbing_summary(step.transitions, step.breed, restart).visits
         lifetime = breeding_events = math.inf
+        note = NEVER_DIES_NOTE
     pi = _distribution(visits)
     mean_days = float(pi @ step.days)
     time_share = pi * step.days / mean_days
@@ -434,6 +448,7 @@ def steady_state(grid: Grid, solution: Solution) -> SteadyState:
         stationary=pi.reshape(2, m),
         kill_prob=step.kill_prob.reshape(2, m, grid.n_prey),
         days_per_step=step.days.reshape(2, m),
+        lifetime_note=note,
     )
 
 

@@ -74,6 +74,31 @@ class StudyError(RiskdietError):
         super().__init__(heading + ":\n" + "\n".join(f"  {p}" for p in self.problems))
 
 
+class SolveError(RiskdietError):
+    """A solve did not reach an answer that can be vouched for (MODEL.md section 3).
+
+    Raised instead of returning numbers: the policy iteration reached its
+    limit, a linear system was singular, or the Bellman residual stayed too
+    large. ``where`` names the scenario, map cell or draw once known.
+
+    Parameters
+    ----------
+    reason : str
+        What went wrong, in plain words.
+    where : str, optional
+        Which scenario, map cell or draw.
+    """
+
+    def __init__(self, reason: str, where: str | None = None):
+        self.reason = reason
+        self.where = where
+        super().__init__(f"{where}: {reason}" if where else reason)
+
+    def located(self, where: str) -> SolveError:
+        """The same error, naming where it happened (the innermost name is kept)."""
+        return SolveError(self.reason, f"{where}, {self.where}" if self.where else where)
+
+
 class OutputExistsError(RiskdietError):
     """An output file already exists and overwriting was not asked for."""
 

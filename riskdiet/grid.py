@@ -277,6 +277,8 @@ class Targets:
         and over a 1 + h_i day capture step, shape (P,).
     survive_handling : ndarray, shape (2, P)
         (1 - mu_k)^h_i.
+    die_handling : ndarray, shape (2, P)
+        1 - (1 - mu_k)^h_i, computed without cancellation (tiny when mu is).
     """
 
     stay: Split
@@ -285,6 +287,7 @@ class Targets:
     recover_stay: float
     recover_capture: np.ndarray
     survive_handling: np.ndarray
+    die_handling: np.ndarray
 
 
 def targets(grid: Grid) -> Targets:
@@ -308,6 +311,8 @@ def targets(grid: Grid) -> Targets:
         recover_stay=r,
         recover_capture=1.0 - (1.0 - r[..., None]) ** (1.0 + grid.handling),
         survive_handling=(1.0 - grid.mortality[..., :, None]) ** grid.handling[..., None, :],
+        die_handling=-np.expm1(grid.handling[..., None, :]
+                               * np.log1p(-grid.mortality[..., :, None])),
     )
 
 
@@ -434,3 +439,37 @@ def outcomes(grid: Grid, tg: Targets, attack_prob: np.ndarray) -> list[Outcome]:
         Outcome(alive * attack_prob * (1 - f) * (1 - s) * q, tg.injury,
                 np.zeros((*batch, 2, m, n_prey)), np.arange(n_prey), False, np.ones(n_prey)),
     ]
+
+
+def death_chances(grid: Grid, tg: Targets, attack_prob: np.ndarray,
+                  parts: list[Outcome]) -> np.ndarray:
+    """Chance of dying in one step, by cause, from every living state.
+
+    Computed from the causes themselves, never as one minus the chances of
+    living, so that tiny chances keep their precision (the complement U = 1 - V
+    of MODEL.md section 3 is solved from them).
+
+    Parameters
+    ----------
+    attack_prob : ndarray, shape (*B, 2, m, P)
+        P_i under the policy.
+    parts : list of Outcome
+        The step's outcomes under the same policy (:func:`outcomes`).
+
+    Returns
+    -------
+    ndarray, shape (*B, 3, 2, m)
+        Starvation (outcome mass landing on level 0, interpolation weight
+        included), an attack ((1 - mu_k) sum_i P_i f_i) and other causes
+        (mu_k + sum_i P(kill i) (1 - (1 - mu_k)^h_i)).
+    """
+    starvation = np.zeros(attack_prob.shape[:-1])
+    for o in parts:
+        on_zero = (o.split.low == 0) * (1.0 - o.split.weight)
+        starvation = starvation + (o.prob * on_zero).sum(-1)
+    alive = (1.0 - grid.mortality)[..., :, None]
+    attack = alive * (attack_prob * grid.fatality[..., None, None, :]).sum(-1)
+    kill = (alive[..., None] * attack_prob * (1.0 - grid.fatality)[..., None, None, :]
+            * grid.capture[..., :, None, :])
+    other = grid.mortality[..., :, None] + (kill * tg.die_handling[..., :, None, :]).sum(-1)
+    return np.stack([starvation, attack, np.broadcast_to(other, attack.shape)], axis=-3)

@@ -27,12 +27,13 @@ import numpy as np
 
 from riskdiet.batch import solve_breeding_batch
 from riskdiet.chain import season_outlook
-from riskdiet.errors import Problem, StudyError, describe
+from riskdiet.choice import one_step_value, step_values
+from riskdiet.errors import Problem, SolveError, StudyError, describe
 from riskdiet.fields import INTEGER, field_specs
 from riskdiet.grid import Grid, attack_probabilities, make_grid, make_grids, take_cells, targets
 from riskdiet.model import BASELINE, Predator, Prey, Study, round_half_up
 from riskdiet.regimes import classify
-from riskdiet.solver import _bellman, solve_season, step_values
+from riskdiet.solver import solve_season
 from riskdiet.validation import check_values
 
 SHARE = "encounter_share"
@@ -336,19 +337,23 @@ def _policy_fixed_step(grid: Grid, values: np.ndarray, priority: np.ndarray) -> 
     ignore, attack, _ = step_values(grid, tg, values,
                                     np.broadcast_to(values[:, None],
                                                     (values.shape[0], n_prey, *values.shape[1:])))
-    return _bellman(grid, ignore, attack, attack_probabilities(grid.encounter_prob, priority))
+    return one_step_value(grid, ignore, attack, attack_probabilities(grid.encounter_prob, priority))
 
 
-def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
-               ) -> tuple[dict, dict]:
-    """Solve one map row; returns per-cell results and the fitness history for the next."""
+def cell_name(request: MapRequest, x: float, y: float) -> str:
+    """How a map cell is named in messages: its two input values."""
+    return (f"map cell ({request.x.target} = {x:.6g}, {request.y.target} = {y:.6g}) "
+            f"of scenario {request.scenario!r}")
+
+
+def _solve_row(study: Study, request: MapRequest, iy: int) -> dict:
+    """Solve one map row; a cell that fails is an error naming its coordinates."""
     nx = request.x.steps
     y = request.y.values[iy]
     base = study.inputs_for(study.scenario(request.scenario))
     inputs = [cell_inputs(study, request, x, y, base) for x in request.x.values]
     out = {k: [None] * nx for k in ("fitness", "marginal", "extra", "kills", "regime_h",
                                     "regime_i", "detail_h", "detail_i", "residual")}
-    history_out: dict = {}
     groups: dict[tuple, list[int]] = {}
     for ix, (p, q) in enumerate(inputs):
         key = (p.currency, p.energy_levels, p.breeding_level, len(q), p.season_days)
@@ -356,7 +361,6 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
     for key, cells in groups.items():
         batch = make_grids([inputs[i] for i in cells])
         if key[0] == "breeding":
-            start = _extrapolate(warm.get(key, []) if warm else [], len(cells))
             extra = None
             if request.gradient is not None:
                 shifted = [(_gradient_inputs(*inputs[i], request.gradient, +1),
@@ -369,10 +373,13 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
                     hi = _policy_fixed_step(take_cells(gp, idx), values, priority)
                     lo = _policy_fixed_step(take_cells(gm, idx), values, priority)
                     return (hi - lo) / (2.0 * steps[idx])[:, None, None]
-            sol = solve_breeding_batch(batch, start, extra)
-            history = (warm.get(key, []) if warm else [])
-            history = [h for h in history if len(h) == len(cells)][-2:]
-            history_out[key] = [*history, sol.fitness]
+            sol = solve_breeding_batch(batch, extra)
+            if sol.failed.size:
+                first = cells[int(sol.failed[0])]
+                raise SolveError(sol.failures[int(sol.failed[0])],
+                                 cell_name(request, request.x.values[first], y)
+                                 + (f" (and {sol.failed.size - 1} more cells of its row)"
+                                    if sol.failed.size > 1 else ""))
             kills = sol.kills_per_day * DAYS_PER_YEAR
             for n, i in enumerate(cells):
                 out["fitness"][i] = sol.fitness_at_start[n]
@@ -384,7 +391,10 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
         else:
             for i in cells:
                 grid = make_grid(*inputs[i])
-                sol = solve_season(grid)
+                try:
+                    sol = solve_season(grid)
+                except SolveError as err:
+                    raise err.located(cell_name(request, request.x.values[i], y)) from None
                 out["fitness"][i] = sol.fitness_at_start
                 out["marginal"][i] = sol.marginal_hunting_ability
                 out["extra"][i] = (None if request.gradient is None else
@@ -393,27 +403,7 @@ def _solve_row(study: Study, request: MapRequest, iy: int, warm: dict | None
                 out["residual"][i] = sol.residual
                 _regimes(out, i, sol.living_priority(grid) >= 0, inputs[i][1], grid)
     out["groups"] = [[p.group for p in inputs[i][1]] for i in range(nx)]
-    return out, history_out
-
-
-def _extrapolate(history: list[np.ndarray], cells: int) -> np.ndarray | None:
-    """Starting values for a row from the rows before it.
-
-    Fitness varies smoothly along the map, so the quadratic extrapolation of the
-    last three rows (linear with two, the row itself with one) is close to this
-    row's fitness; its greedy policy is usually already optimal and most cells
-    then finish in one policy-iteration round.
-    """
-    rows = [h for h in history if len(h) == cells]
-    if not rows:
-        return None
-    if len(rows) == 1:
-        guess = rows[-1]
-    elif len(rows) == 2:
-        guess = 2 * rows[-1] - rows[-2]
-    else:
-        guess = 3 * rows[-1] - 3 * rows[-2] + rows[-3]
-    return np.clip(guess, 0.0, 1.0)
+    return out
 
 
 def _season_gradient(inputs, target) -> float:
@@ -437,7 +427,7 @@ def _fixed_season_value(grid: Grid, base) -> float:
         ignore, attack, _ = step_values(grid, tg, values[t + 1], values[cap_day])
         prob = attack_probabilities(grid.encounter_prob,
                                     base.priority_by_day[t][:, 1:].astype(np.int64))
-        values[t, :, 1:] = _bellman(grid, ignore, attack, prob)
+        values[t, :, 1:] = one_step_value(grid, ignore, attack, prob)
     return float(values[0, 0, grid.start_level])
 
 
@@ -462,13 +452,8 @@ def _classify(mask: bytes, shape: tuple[int, int], risky: tuple[bool, ...],
 
 
 def _solve_band(study: Study, request: MapRequest, rows: list[int]) -> list[tuple[int, dict]]:
-    """Solve consecutive map rows, each warm-started from the row before."""
-    warm = None
-    results = []
-    for iy in rows:
-        out, warm = _solve_row(study, request, iy, warm)
-        results.append((iy, out))
-    return results
+    """Solve consecutive map rows (one task for an executor)."""
+    return [(iy, _solve_row(study, request, iy)) for iy in rows]
 
 
 def make_map(study: Study, request: MapRequest, executor: Executor | None = None,

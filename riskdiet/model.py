@@ -128,7 +128,17 @@ class Predator:
         description="Reserves right after a breeding event.")
     population: int = spec_field(
         1, kind=INTEGER, unit="count", low=0,
-        description="Predators in the area, for population totals.")
+        description="Predators in the area, for long-run totals (places kept filled: every "
+        "death replaced).")
+    released_animals: int | None = spec_field(
+        kind=INTEGER, unit="count", low=0, high=1_000_000,
+        description="Animals released on day 0, for the released cohort's numbers "
+        "(blank: the population).")
+
+    @property
+    def cohort_size(self) -> int:
+        """Animals released on day 0 (MODEL.md section 5): the field, else the population."""
+        return self.population if self.released_animals is None else self.released_animals
 
     @property
     def daily_cost_is_estimated(self) -> bool:
@@ -197,7 +207,8 @@ class Prey:
         description="Chance an attack captures the prey, at hunting ability 1.")
     skill_dependent: bool | None = spec_field(
         kind=BOOLEAN, unit="yes/no",
-        description="Capture success scales with hunting ability (blank: yes if risky).")
+        description="Capture success scales with hunting ability (blank: yes if the prey is "
+        "risky in the baseline inputs).")
     injury_chance: float = spec_field(
         0.0, kind=NUMBER, unit="probability", low=0, high=1,
         description="Chance that a failed attack injures the predator.")
@@ -308,6 +319,9 @@ class Settings:
         description="Vertical axis of the map, e.g. hunting_ability=0.2:1.6:41.")
     map_scenario: str | None = spec_field(
         kind=TEXT, unit="text", description="Scenario the map varies (blank: baseline).")
+    horizon_days: int = spec_field(
+        365, kind=INTEGER, unit="day", low=1, high=3650,
+        description="Planning horizon for the released cohort's kills and survival.")
     map_gradient: str | None = spec_field(
         kind=TEXT, unit="FIELD or PREY:FIELD",
         description="A further input whose marginal value the map shows (optional).")
@@ -355,9 +369,21 @@ class Study:
                 return s
         raise KeyError(name)
 
+    @property
+    def baseline_prey(self) -> tuple[Prey, ...]:
+        """The prey as entered, with a blank ``skill_dependent`` fixed from baseline risk.
+
+        MODEL.md section 1: a prey that is risky in the baseline inputs is
+        skill-dependent unless told otherwise; a scenario, map cell or draw that
+        changes its risk later does not change that.
+        """
+        return tuple(p if p.skill_dependent is not None
+                     else dataclasses.replace(p, skill_dependent=p.risky) for p in self.prey)
+
     def inputs_for(self, scenario: Scenario) -> tuple[Predator, tuple[Prey, ...]]:
         """Predator and prey of a scenario: the baseline with its changes applied."""
-        predator, prey, problems = apply_changes(self.predator, self.prey, scenario.changes)
+        predator, prey, problems = apply_changes(self.predator, self.baseline_prey,
+                                                 scenario.changes)
         if problems:
             raise StudyError(problems, self.source or None)
         return predator, prey

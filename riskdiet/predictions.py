@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from riskdiet.chain import season_outlook, steady_state
+from riskdiet.cohort import released_cohort
 from riskdiet.grid import Grid
 from riskdiet.model import Predator, Prey
 from riskdiet.solver import Solution
@@ -70,6 +71,9 @@ class SteadyStateKills:
         Of a newcomer; None when unbounded (it can live forever).
     expected_breeding_events : float or None
         Of a newcomer over its life; None when unbounded.
+    lifetime_note : str or None
+        Why the two numbers above are None, when they are (MODEL.md section 5:
+        an animal that practically never dies).
     first_breeding_probability : float
         Chance that a newcomer reaches breeding condition before dying.
     death_before_breeding : dict
@@ -95,6 +99,7 @@ class SteadyStateKills:
     expected_breeding_events: float | None
     first_breeding_probability: float
     death_before_breeding: dict[str, float]
+    lifetime_note: str | None = None
 
     def to_dict(self) -> dict:
         return dict(self.__dict__)
@@ -119,8 +124,9 @@ class SeasonKills:
         season reserve threshold (equals the fitness at the start state).
     survival_by_day : list of float
         Chance of being alive on each day 0..T.
-    mean_reserves_fraction_by_day : list of float
-        Mean reserves of the living on each day [fraction of capacity].
+    mean_reserves_fraction_by_day : list of float or None
+        Mean reserves of the living on each day [fraction of capacity]; None
+        on days when no animal is alive (a mean over nobody is undefined).
     """
 
     expected_kills: dict[str, float]
@@ -130,7 +136,7 @@ class SeasonKills:
     survival_to_end: float
     chance_above_threshold: float
     survival_by_day: list[float]
-    mean_reserves_fraction_by_day: list[float]
+    mean_reserves_fraction_by_day: list[float | None]
 
     def to_dict(self) -> dict:
         return dict(self.__dict__)
@@ -164,6 +170,7 @@ def steady_state_kills(predator: Predator, prey: tuple[Prey, ...], grid: Grid,
         expected_breeding_events=_finite(chain.expected_breeding_events),
         first_breeding_probability=float(chain.first_breeding_probability),
         death_before_breeding={k: float(v) for k, v in chain.death_before_breeding.items()},
+        lifetime_note=chain.lifetime_note,
     )
 
 
@@ -182,5 +189,70 @@ def season_kills(predator: Predator, prey: tuple[Prey, ...], grid: Grid,
         survival_to_end=float(out.survival_to_end),
         chance_above_threshold=float(out.chance_above_threshold),
         survival_by_day=[float(v) for v in out.survival_by_day],
-        mean_reserves_fraction_by_day=[float(v) / grid.n for v in out.mean_reserves_by_day],
+        mean_reserves_fraction_by_day=[_finite(float(v) / grid.n)
+                                       for v in out.mean_reserves_by_day],
+    )
+
+
+@dataclass(frozen=True)
+class CohortKills:
+    """What the released animals do within the planning horizon (no replacement).
+
+    Attributes
+    ----------
+    horizon_days : int
+        Planning horizon L (season currency: the season) [day].
+    animals : int
+        Animals released on day 0 (``released_animals``, default ``population``).
+    kills : dict of str to float
+        Expected kills of each prey by the whole cohort within the horizon [kills].
+    kills_by_group : dict of str to float
+        The same summed by prey group.
+    alive_at_horizon : float
+        Chance that one released animal is alive at the horizon [probability].
+    survivors : float
+        Expected released animals alive at the horizon [animals].
+    breeding_events : float or None
+        Expected breeding events by the cohort within the horizon; None in the
+        season currency.
+    median_survival_days : int or None
+        Smallest whole day by which half the released animals are expected to
+        have died; None when more than half are alive at the horizon.
+    survival_by_day : list of float
+        Chance that one released animal is alive on each day 0..L.
+    """
+
+    horizon_days: int
+    animals: int
+    kills: dict[str, float]
+    kills_by_group: dict[str, float]
+    alive_at_horizon: float
+    survivors: float
+    breeding_events: float | None
+    median_survival_days: int | None
+    survival_by_day: list[float]
+
+    def to_dict(self) -> dict:
+        """The ``cohort`` object of ``solve --json`` (survival curve left out)."""
+        out = dict(self.__dict__)
+        del out["survival_by_day"]
+        return out
+
+
+def cohort_kills(predator: Predator, prey: tuple[Prey, ...], grid: Grid, solution: Solution,
+                 horizon_days: int) -> CohortKills:
+    """Named predictions for the released cohort (MODEL.md section 5)."""
+    out = released_cohort(grid, solution, horizon_days)
+    animals = predator.cohort_size
+    kills = animals * np.asarray(out.kills, dtype=float)
+    return CohortKills(
+        horizon_days=out.horizon_days,
+        animals=animals,
+        kills=_named([p.name for p in prey], kills),
+        kills_by_group=_by_group(prey, kills),
+        alive_at_horizon=out.alive_at_horizon,
+        survivors=animals * out.alive_at_horizon,
+        breeding_events=None if out.breeding_events is None else animals * out.breeding_events,
+        median_survival_days=out.median_survival_days,
+        survival_by_day=[float(v) for v in out.alive_by_day],
     )

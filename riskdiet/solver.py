@@ -31,35 +31,52 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.linalg import bicgstab, splu
 
-from riskdiet.errors import RiskdietError
+from riskdiet.choice import (
+    choice_values,
+    default_sets,
+    keep_unless_better,
+    relative_residual,
+    set_values,
+    step_values,
+)
+from riskdiet.errors import SolveError
 from riskdiet.grid import (
     Grid,
     Outcome,
-    Split,
-    Targets,
     attack_probabilities,
+    death_chances,
     outcomes,
-    rank_attacks,
     targets,
 )
 
-MAX_POLICY_ITERATIONS = 200
+__all__ = ["LinearSolve", "Solution", "solve_breeding", "solve_grid", "solve_season",
+           "step_values", "transition_matrix"]
+
+MAX_POLICY_ITERATIONS = 500
+"""Policy-iteration rounds before the solve is declared failed (a few to tens are typical)."""
 DIRECT_LIMIT = 300
 """Largest system (unknowns) factorised directly; larger ones try BiCGSTAB first."""
 SOLVE_TOLERANCE = 1e-13
-"""Largest accepted residual |(I - P) x - b| of an iterative solve, relative to |b|."""
+"""Largest accepted residual of an iterative solve in each state, relative to b_s + (P x)_s."""
+RESIDUAL_LIMIT = 1e-9
+"""Largest accepted Bellman residual relative to each state's value (MODEL.md section 3)."""
+SUM_LIMIT = 1e-9
+"""Largest accepted |V + U - 1| in any state: the value and its complement solved separately."""
+
+SINGULAR = ("the linear system of the attack policy tried in policy-iteration round {round} "
+            "is singular to working precision: under that policy the predator would "
+            "practically never die nor reach breeding condition (it could stay within a band "
+            "of reserves for an astronomically long time), so its chances cannot be computed. "
+            "This is a limit of the solver, not an error in the inputs; please report it with "
+            "the study")
 
 
-def _factorise(matrix: sp.csr_matrix):
-    """Sparse LU of I - P, or a clear error when some policy never ends."""
+def _factorise(matrix: sp.csr_matrix, label: str):
+    """Sparse LU of I - P, or an error saying which policy could not be evaluated."""
     try:
         return splu(matrix.tocsc(), permc_spec="MMD_AT_PLUS_A")
     except RuntimeError:
-        raise RiskdietError(
-            "the predator's reserves can cycle for ever without death or breeding under some "
-            "attack policy (I - P is singular); this happens when a prey is met on every "
-            "day (encounters_per_day above about 35) and its captures exactly balance the "
-            "daily cost. Lower the encounter rate or change the energy values.") from None
+        raise SolveError(SINGULAR.format(round=label)) from None
 
 
 class LinearSolve:
@@ -73,24 +90,34 @@ class LinearSolve:
     solution of the linear system to rounding error, not a truncated iteration.
     """
 
-    def __init__(self, matrix: sp.csr_matrix):
+    def __init__(self, matrix: sp.csr_matrix, label: str = "1"):
         self.matrix = matrix
+        self.label = label
         self.lu = None
         self.method = "sparse LU"
         if matrix.shape[0] <= DIRECT_LIMIT:
-            self.lu = _factorise(matrix)
+            self.lu = _factorise(matrix, label)
+
+    def accepted(self, x: np.ndarray, rhs: np.ndarray) -> bool:
+        """MODEL.md section 3: x >= 0 and |((I - P)x - b)_s| <= 1e-13 (b_s + (P x)_s)."""
+        if not np.all(np.isfinite(x)) or x.min() < 0:
+            return False
+        lhs = self.matrix @ x
+        return bool(np.all(np.abs(lhs - rhs) <= SOLVE_TOLERANCE * (rhs + (x - lhs))))
 
     def __call__(self, rhs: np.ndarray, guess: np.ndarray | None = None) -> np.ndarray:
         if self.lu is None:
-            scale = max(float(np.abs(rhs).max()), 1e-300)
             x, info = bicgstab(self.matrix, rhs, x0=guess, rtol=SOLVE_TOLERANCE * 0.1, atol=0.0,
                                maxiter=20 * self.matrix.shape[0])
-            if info == 0 and np.abs(self.matrix @ x - rhs).max() <= SOLVE_TOLERANCE * scale:
+            if info == 0 and self.accepted(x, rhs):
                 self.method = "BiCGSTAB (residual-checked)"
                 return x
-            self.lu = _factorise(self.matrix)
+            self.lu = _factorise(self.matrix, self.label)
             self.method = "sparse LU"
-        return self.lu.solve(rhs)
+        x = self.lu.solve(rhs)
+        if not np.all(np.isfinite(x)):
+            raise SolveError(SINGULAR.format(round=self.label))
+        return x
 
 
 @dataclass(frozen=True)
@@ -113,15 +140,17 @@ class Solution:
         dV(j0, healthy)/da with the policy fixed [probability per unit ability].
     marginal_by_level : ndarray, shape (2, n + 1)
         The same derivative at every state.
-    elasticity : float
-        (a / V) dV/da at the start state; NaN when V = 0.
+    elasticity : float or None
+        (a / V) dV/da at the start state; None when V = 0 (undefined).
     residual : float
-        Largest Bellman residual |T V - V| over living states (0 for the season
-        currency, whose backward induction is exact by construction).
+        Largest Bellman residual over living states relative to each state's
+        value, max |T V - V| / max(V, U) (0 for the season currency, whose
+        backward induction is exact by construction).
     iterations : int
         Policy-iteration rounds (season: days).
     converged : bool
-        Whether the policy repeated within the iteration limit.
+        Always True: a solve that does not settle raises
+        :class:`riskdiet.errors.SolveError` instead of returning.
     fitness_by_day : ndarray or None, shape (T + 1, 2, n + 1)
         Season currency: V_t for every day, V_T = terminal reward.
     priority_by_day : ndarray or None, shape (T, 2, n + 1, P)
@@ -129,6 +158,9 @@ class Solution:
     linear_solver : str
         How the last policy was evaluated (``sparse LU``, ``BiCGSTAB
         (residual-checked)`` or ``backward induction``).
+    complement : ndarray, shape (2, n + 1)
+        U = 1 - V computed directly (MODEL.md section 3), exact for values
+        near 1 where V has lost its precision.
     """
 
     currency: str
@@ -137,87 +169,19 @@ class Solution:
     fitness_at_start: float
     marginal_hunting_ability: float
     marginal_by_level: np.ndarray
-    elasticity: float
+    elasticity: float | None
     residual: float
     iterations: int
     converged: bool
     fitness_by_day: np.ndarray | None = None
     priority_by_day: np.ndarray | None = None
     linear_solver: str = "backward induction"
+    complement: np.ndarray | None = None
 
     def living_priority(self, grid: Grid, day: int = 0) -> np.ndarray:
         """Policy restricted to living states, shape (2, m, P)."""
         src = self.priority if self.priority_by_day is None else self.priority_by_day[day]
         return src[:, grid.living, :]
-
-
-def _cap_interp(v_cap: np.ndarray, cond: int, s: Split) -> np.ndarray:
-    """Interpolate per-prey value rows ``v_cap[..., i, cond, :]`` at capture splits (…, m, P)."""
-    if v_cap.ndim == 3:  # a single grid: plain indexing is the fast path
-        prey = np.arange(v_cap.shape[0])
-        return ((1.0 - s.weight) * v_cap[prey, cond, s.low]
-                + s.weight * v_cap[prey, cond, s.low + 1])
-    rows = v_cap[..., cond, :]                                  # (*B, P, L)
-    low = np.swapaxes(s.low, -1, -2)                            # (*B, P, m)
-    w = np.swapaxes(s.weight, -1, -2)
-    vals = ((1.0 - w) * np.take_along_axis(rows, low, -1)
-            + w * np.take_along_axis(rows, low + 1, -1))
-    return np.swapaxes(vals, -1, -2)
-
-
-def step_values(grid: Grid, tg: Targets, v_stay: np.ndarray, v_cap: np.ndarray
-                ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Values of ignoring and of attacking each prey, from every living state.
-
-    Works on one grid or on a stacked batch of grids (leading batch axes *B on
-    every per-cell array, see :func:`riskdiet.grid.stack_grids`).
-
-    Parameters
-    ----------
-    v_stay : ndarray, shape (*B, 2, top + 1)
-        Value at the end of a one-day step.
-    v_cap : ndarray, shape (*B, P, 2, top + 1)
-        Value at the end of a capture step of each prey (differs by prey only
-        in the season currency, where handling moves the clock).
-
-    Returns
-    -------
-    ignore : ndarray, shape (*B, 2, m)
-        G = W_k(j - c_k; 1).
-    attack : ndarray, shape (*B, 2, m, P)
-        A_i of MODEL.md section 3.
-    d_attack_d_success : ndarray, shape (*B, 2, m, P)
-        dA_i / ds_i^k at fixed values.
-    """
-    r = np.asarray(tg.recover_stay, dtype=float)[..., None]
-    stay = tg.stay
-    healthy_now = Split(stay.low[..., 0, :], stay.weight[..., 0, :]).value(v_stay[..., 0, :])
-    injured_split = Split(stay.low[..., 1, :], stay.weight[..., 1, :])
-    injured_now = (r * injured_split.value(v_stay[..., 0, :])
-                   + (1 - r) * injured_split.value(v_stay[..., 1, :]))
-    ignore = np.stack([healthy_now, injured_now], axis=-2)
-
-    cap = tg.capture
-    won_h = _cap_interp(v_cap, 0, Split(cap.low[..., 0, :, :], cap.weight[..., 0, :, :]))
-    rc = tg.recover_capture[..., None, :]
-    c1 = Split(cap.low[..., 1, :, :], cap.weight[..., 1, :, :])
-    won_i = rc * _cap_interp(v_cap, 0, c1) + (1 - rc) * _cap_interp(v_cap, 1, c1)
-    won = np.stack([won_h, won_i], axis=-3)
-
-    hurt = tg.injury.value(v_stay[..., 1, :])
-
-    q, f = grid.injury_chance[..., None, None, :], grid.fatality[..., None, None, :]
-    s = grid.capture[..., :, None, :]
-    won_net = tg.survive_handling[..., :, None, :] * won
-    failed = q * hurt + (1 - q) * ignore[..., None]
-    attack = (1 - f) * (s * won_net + (1 - s) * failed)
-    return ignore, attack, (1 - f) * (won_net - failed)
-
-
-def _bellman(grid: Grid, ignore: np.ndarray, attack: np.ndarray,
-             attack_prob: np.ndarray) -> np.ndarray:
-    alive = (1.0 - grid.mortality)[..., :, None]
-    return alive * (ignore + (attack_prob * (attack - ignore[..., None])).sum(-1))
 
 
 def transition_matrix(grid: Grid, parts: list[Outcome]) -> tuple[sp.csr_matrix, np.ndarray]:
@@ -266,75 +230,101 @@ def _full_levels(grid: Grid, living: np.ndarray, dead: float, top: float) -> np.
     return out
 
 
-def solve_breeding(grid: Grid, initial_priority: np.ndarray | None = None,
-                   max_iterations: int = MAX_POLICY_ITERATIONS) -> Solution:
+def _check_values(v: np.ndarray, u: np.ndarray, label: str) -> None:
+    """A value and its complement, solved separately, must be probabilities adding to one."""
+    if not (np.all(np.isfinite(v)) and np.all(np.isfinite(u))):
+        raise SolveError(SINGULAR.format(round=label))
+    worst = float(np.max(np.abs(v + u - 1.0), initial=0.0))
+    if worst > SUM_LIMIT or v.min(initial=0.0) < -SUM_LIMIT or u.min(initial=0.0) < -SUM_LIMIT:
+        raise SolveError(f"the values of the attack policy of policy-iteration round {label} are "
+                         f"inexact (a chance and its complement differ from 1 by {worst:.1e}); "
+                         "the linear system is too ill-conditioned to vouch for the numbers")
+
+
+def _check_residual(residual: float) -> None:
+    if not np.isfinite(residual) or residual > RESIDUAL_LIMIT:
+        raise SolveError(f"the optimality check failed: the Bellman residual relative to the "
+                         f"values is {residual:.1e}, above the accepted {RESIDUAL_LIMIT:.0e}")
+
+
+def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS) -> Solution:
     """Probability of reaching breeding condition before dying, and its policy.
 
     Parameters
     ----------
     grid : Grid
         Discretised study (breeding currency).
-    initial_priority : ndarray of int, shape (2, m, P), optional
-        Policy to start from (e.g. a neighbouring map cell's); by default the
-        greedy policy of a linear value ramp.
     max_iterations : int
-        Limit on policy-iteration rounds.
+        Limit on policy-iteration rounds; reaching it is an error.
 
     Returns
     -------
     Solution
 
+    Raises
+    ------
+    SolveError
+        When the iteration does not settle, a policy's linear system is
+        singular, or the answer fails its checks (MODEL.md section 3).
+
     Notes
     -----
-    Policy iteration for a transient Markov decision process: evaluate
-    V = (I - P_pi)^-1 b_pi exactly, set pi to the greedy ranked attack set of V,
-    stop when pi repeats [3]_. Every policy ends in absorption because c > 0.
-    The marginal value of hunting ability solves
-    (I - P) dV/da = dP/da V + db/da [1]_, [4]_ with the same factors.
+    Policy iteration for a transient Markov decision process [3]_, started
+    from the default policy (:func:`riskdiet.choice.default_sets`). Each round
+    evaluates V = (I - P)^-1 b and its complement U = (I - P)^-1 d exactly (b
+    the one-step breeding chance, d the one-step chance of dying), then
+    switches a state to the greedy set only where that raises its one-step
+    value by more than the relative tolerance; the iteration ends when no
+    state switches. Every policy ends in absorption because c > 0. The
+    marginal value of hunting ability solves (I - P) dV/da = dP/da V + db/da
+    [1]_, [4]_ with the same factors.
 
     References
     ----------
     .. [1] Houston, A. I. & McNamara, J. M. (1999). Models of Adaptive
        Behaviour. Cambridge University Press.
-    .. [3] Puterman, M. L. (1994). Markov Decision Processes. Wiley, ch. 7.
+    .. [3] Puterman, M. L. (1994). Markov Decision Processes. Wiley, sections
+       6.4 and 7.2.
     .. [4] Lande, R. (1979). Evolution 33, 402-416.
     """
     tg = targets(grid)
-    m = grid.n_living
+    m, top, n_prey = grid.n_living, grid.top, grid.n_prey
     identity = sp.identity(2 * m, format="csr")
-    v_full = np.zeros((2, grid.top + 1))
-    v_full[:, grid.top] = 1.0
-    v_full[:, 1:grid.top] = np.arange(1, grid.top) / grid.top
-    if initial_priority is None:
-        ignore, attack, _ = step_values(grid, tg, v_full, v_full[None])
-        priority = rank_attacks(attack, ignore)
-    else:
-        priority = np.asarray(initial_priority)
-    converged = False
+    v_full = np.zeros((2, top + 1))
+    v_full[:, top] = 1.0
+    v_full[:, 1:top] = np.arange(1, top) / top
+    u_full = 1.0 - v_full
+    priority = default_sets(grid, tg)
     for iteration in range(1, max_iterations + 1):
         attack_prob = attack_probabilities(grid.encounter_prob, priority)
-        matrix, breed = transition_matrix(grid, outcomes(grid, tg, attack_prob))
-        lu = LinearSolve((identity - matrix).tocsr())
-        v_full[:, 1:grid.top] = lu(breed, v_full[:, 1:grid.top].reshape(-1)).reshape(2, m)
-        ignore, attack, d_attack = step_values(
-            grid, tg, v_full, np.broadcast_to(v_full, (grid.n_prey, *v_full.shape)))
-        improved = rank_attacks(attack, ignore)
-        if np.array_equal(improved, priority):
-            converged = True
+        parts = outcomes(grid, tg, attack_prob)
+        matrix, breed = transition_matrix(grid, parts)
+        death = death_chances(grid, tg, attack_prob, parts).sum(0).reshape(-1)
+        lu = LinearSolve((identity - matrix).tocsr(), str(iteration))
+        v = lu(breed, v_full[:, 1:top].reshape(-1))
+        u = lu(death, u_full[:, 1:top].reshape(-1))
+        _check_values(v, u, str(iteration))
+        v_full[:, 1:top] = v.reshape(2, m)
+        u_full[:, 1:top] = u.reshape(2, m)
+        cv = choice_values(grid, tg, v_full, u_full, np.broadcast_to(v_full, (n_prey, 2, top + 1)),
+                           np.broadcast_to(u_full, (n_prey, 2, top + 1)))
+        improved, switched = keep_unless_better(grid, cv, priority)
+        if not switched.any():
             break
-        if iteration < max_iterations:
-            priority = improved
-    greedy_prob = attack_probabilities(grid.encounter_prob, improved)
-    residual = float(np.max(np.abs(_bellman(grid, ignore, attack, greedy_prob)
-                                   - v_full[:, 1:grid.top])))
+        priority = improved
+    else:
+        raise SolveError(f"policy iteration did not settle within {max_iterations} rounds")
+    residual = float(relative_residual(grid, cv, v_full[:, 1:top], u_full[:, 1:top]).max())
+    _check_residual(residual)
     # envelope theorem: derivative of the one-step value at fixed V and policy
     alive = (1.0 - grid.mortality)[:, None]
-    direct = alive * (attack_prob * d_attack * grid.capture_slope[:, None, :]).sum(-1)
+    direct = alive * (attack_prob * cv.d_attack * grid.capture_slope[:, None, :]).sum(-1)
     dv = lu(direct.reshape(-1)).reshape(2, m)
-    fitness = _full_levels(grid, v_full[:, 1:grid.top], 0.0, 1.0)
+    fitness = _full_levels(grid, v_full[:, 1:top], 0.0, 1.0)
+    complement = _full_levels(grid, u_full[:, 1:top], 1.0, 0.0)
     marginal = _full_levels(grid, dv, 0.0, 0.0)
-    solution = _finish(grid, fitness, _full_levels(grid, priority, -1, -1), marginal, residual,
-                       iteration, converged)
+    solution = _finish(grid, fitness, complement, _full_levels(grid, priority, -1, -1), marginal,
+                       residual, iteration)
     return dataclasses.replace(solution, linear_solver=lu.method)
 
 
@@ -343,9 +333,11 @@ def solve_season(grid: Grid) -> Solution:
 
     Notes
     -----
-    V_T(j) = 1 when j >= round(theta n) (and j >= 1), else 0; for t < T the
-    day-t value is the Bellman step of MODEL.md section 3 using V_{t+1} for
-    one-day steps and V_{min(t + 1 + H_i, T)} for captures [2]_. The marginal
+    V_T(j) = 1 when j >= round(theta n) (and j >= 1), else 0, and U_T = 1 - V_T;
+    for t < T the day-t values are the Bellman step of MODEL.md section 3
+    using day t + 1 for one-day steps and day min(t + 1 + H_i, T) for
+    captures [2]_. At every day and state the default set is kept unless the
+    greedy set is better by more than the relative tolerance. The marginal
     value of hunting ability is propagated backwards beside V with the day-t
     policy held fixed.
 
@@ -361,40 +353,52 @@ def solve_season(grid: Grid) -> Solution:
     terminal[grid.terminal_level:] = 1.0
     values = np.zeros((days + 1, 2, n + 1))
     values[days] = terminal
+    comps = np.ones((days + 1, 2, n + 1))
+    comps[days] = 1.0 - terminal
     slopes = np.zeros_like(values)
     priority = np.full((days, 2, n + 1, n_prey), -1, dtype=np.int16)
     alive = (1.0 - grid.mortality)[:, None]
     skill = grid.capture_slope[:, None, :]
     handling = grid.handling.astype(np.intp)
+    default = default_sets(grid, tg)
     for t in range(days - 1, -1, -1):
         cap_day = np.minimum(t + 1 + handling, days)
-        ignore, attack, d_attack = step_values(grid, tg, values[t + 1], values[cap_day])
-        ranks = rank_attacks(attack, ignore)
-        attack_prob = attack_probabilities(grid.encounter_prob, ranks)
+        cv = choice_values(grid, tg, values[t + 1], comps[t + 1], values[cap_day],
+                           comps[cap_day])
+        ranks, _ = keep_unless_better(grid, cv, default)
+        v, u, attack_prob = set_values(grid, cv, ranks)
         priority[t, :, 1:] = ranks
-        values[t, :, 1:] = _bellman(grid, ignore, attack, attack_prob)
+        values[t, :, 1:] = v
+        comps[t, :, 1:] = u
         d_ignore, d_attack_lin, _ = step_values(grid, tg, slopes[t + 1], slopes[cap_day])
-        d_total = d_attack_lin + d_attack * skill
+        d_total = d_attack_lin + cv.d_attack * skill
         slopes[t, :, 1:] = alive * (d_ignore + (attack_prob * (d_total - d_ignore[..., None]))
                                     .sum(-1))
-    return _finish(grid, values[0].copy(), priority[0].astype(np.intp), slopes[0].copy(), 0.0,
-                   days, True, values, priority)
+    _check_values(values[0, :, 1:], comps[0, :, 1:], "of day 0")
+    return _finish(grid, values[0].copy(), comps[0].copy(), priority[0].astype(np.intp),
+                   slopes[0].copy(), 0.0, days, values, priority)
 
 
-def _finish(grid: Grid, fitness: np.ndarray, priority: np.ndarray, marginal: np.ndarray,
-            residual: float, iterations: int, converged: bool,
+def _finish(grid: Grid, fitness: np.ndarray, complement: np.ndarray, priority: np.ndarray,
+            marginal: np.ndarray, residual: float, iterations: int,
             by_day: np.ndarray | None = None, priority_by_day: np.ndarray | None = None
             ) -> Solution:
     j0 = grid.start_level
     v0 = float(fitness[0, j0])
     g = float(marginal[0, j0])
-    elasticity = grid.hunting_ability * g / v0 if v0 > 0 else float("nan")
+    elasticity = grid.hunting_ability * g / v0 if v0 > 0 else None
     return Solution(grid.currency, fitness, priority, v0, g, marginal, elasticity, residual,
-                    iterations, converged, by_day, priority_by_day)
+                    iterations, True, by_day, priority_by_day, complement=complement)
 
 
-def solve_grid(grid: Grid, initial_priority: np.ndarray | None = None) -> Solution:
-    """Solve a discretised study in its own currency."""
+def solve_grid(grid: Grid) -> Solution:
+    """Solve a discretised study in its own currency.
+
+    Raises
+    ------
+    SolveError
+        When no answer that can be vouched for was reached (MODEL.md section 3).
+    """
     if grid.currency == "season":
         return solve_season(grid)
-    return solve_breeding(grid, initial_priority)
+    return solve_breeding(grid)

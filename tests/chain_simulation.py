@@ -257,3 +257,48 @@ def simulate_season(predator, prey, priority_by_day: np.ndarray, individuals: in
         active = active[alive[active] & (clock[active] < days)]
     return {"kills": kills, "alive": alive, "level": level,
             "alive_by_day": level_by_day > 0, "level_by_day": level_by_day}
+
+
+def simulate_cohort(predator, prey, priority: np.ndarray, individuals: int, horizon: int,
+                    seed: int) -> dict[str, np.ndarray]:
+    """Released animals followed day by day to the horizon, no replacement.
+
+    The clock of MODEL.md section 5: a capture step with handling h started on
+    day t ends on day t + 1 + floor(h), or one day later with probability
+    frac(h); other steps end on day t + 1. Kills count on the start day (days
+    0..L-1); an animal that dies in a step is dead from the next day; a
+    breeding event counts on the end day (if it is at most L) and the animal
+    goes on at the after-breeding level, healthy.
+
+    Returns
+    -------
+    dict
+        Per animal: ``kills`` (N, P), ``alive`` (at day L), ``breeding`` (events).
+    """
+    par = parameters(predator, prey)
+    rng = np.random.default_rng(seed)
+    level = np.full(individuals, par.start)
+    cond = np.zeros(individuals, dtype=np.int64)
+    clock = np.zeros(individuals, dtype=np.int64)
+    alive = np.ones(individuals, dtype=bool)
+    kills = np.zeros((individuals, len(prey)))
+    breeding = np.zeros(individuals)
+    active = np.arange(individuals)
+    while active.size:
+        t = clock[active]
+        res = one_step(par, priority[cond[active], level[active]], level[active], cond[active],
+                       rng)
+        hit = res.kill >= 0
+        kills[active[hit], res.kill[hit]] += 1.0
+        hold = res.length - 1.0
+        whole = np.floor(hold)
+        end = t + 1 + whole.astype(np.int64) + (rng.random(active.size) < hold - whole)
+        died = res.death > 0
+        alive[active[died]] = False
+        bred = res.bred & (end <= horizon)
+        breeding[active[bred]] += 1.0
+        level[active] = np.where(res.bred, par.after_breeding, res.level)
+        cond[active] = np.where(res.bred, 0, res.condition)
+        clock[active] = end
+        active = active[alive[active] & (clock[active] < horizon)]
+    return {"kills": kills, "alive": alive, "breeding": breeding}

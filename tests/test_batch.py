@@ -115,33 +115,6 @@ def test_batch_kill_rates_equal_the_chain_steady_state(cells, solved):
                                    atol=1e-15)
 
 
-def test_warm_start_from_the_optimum_gives_the_same_answer_in_one_round(cells, solved):
-    """Started from the optimal values, policy iteration's first greedy policy
-    is already optimal, so every cell stops after one evaluation with the same
-    answer (Puterman 1994, ch. 7)."""
-    grids, _ = cells
-    warm = batch.solve_breeding_batch(stack_grids(grids), initial_values=solved.fitness)
-    np.testing.assert_array_equal(warm.priority, solved.priority)
-    np.testing.assert_allclose(warm.fitness, solved.fitness, rtol=0, atol=1e-14)
-    np.testing.assert_allclose(warm.marginal_hunting_ability,
-                               solved.marginal_hunting_ability, rtol=1e-12, atol=1e-15)
-    np.testing.assert_allclose(warm.kills_per_day, solved.kills_per_day, rtol=1e-12)
-    assert (warm.iterations == 1).all()
-
-
-def test_warm_start_from_other_cells_values_gives_the_same_answer(cells, solved):
-    """Starting every cell from another cell's optimal values (a poor guess)
-    still ends at the cell's own optimum: policy iteration converges to the
-    optimal policy from any start (Puterman 1994, ch. 7)."""
-    grids, _ = cells
-    guess = np.roll(solved.fitness, 5, axis=0)
-    other = batch.solve_breeding_batch(stack_grids(grids), initial_values=guess)
-    np.testing.assert_array_equal(other.priority, solved.priority)
-    np.testing.assert_allclose(other.fitness, solved.fitness, rtol=0, atol=1e-13)
-    np.testing.assert_allclose(other.fitness_at_start, solved.fitness_at_start, rtol=0,
-                               atol=1e-13)
-
-
 def _fixed_policy_step(grid, values, priority):
     """V -> (1 - mu_k) [G + sum_i P_i (A_i - G)] under a fixed ranked attack set
     (MODEL.md section 3), for a stacked grid; shape (B, 2, m)."""
