@@ -213,8 +213,12 @@ class StudyResult:
         raise KeyError(name)
 
     def to_dict(self) -> dict:
-        """JSON-ready dictionary (the ``solve --json`` document)."""
-        return {
+        """JSON-ready dictionary (the ``solve --json`` document).
+
+        Numbers that are undefined are null, never NaN or infinity: the reason
+        is documented beside each such key (README, "JSON output").
+        """
+        return finite({
             "riskdiet_version": self.riskdiet_version,
             "study_name": self.study.name,
             "input_file": self.study.source,
@@ -224,7 +228,24 @@ class StudyResult:
                         "x": self.map.request.x.target, "y": self.map.request.y.target,
                         "columns": self.map.columns(), "rows": self.map.rows()}}
                if self.map is not None else {}),
-        }
+        })
+
+
+def finite(value):
+    """Replace every non-finite float in a JSON-ready structure by None.
+
+    The fields that can be undefined are set to None where they are computed;
+    this is the last guard, so that no output can ever carry NaN or infinity.
+    """
+    if isinstance(value, float):
+        return value if np.isfinite(value) else None
+    if isinstance(value, dict):
+        return {k: finite(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [finite(v) for v in value]
+    if isinstance(value, np.generic):
+        return finite(value.item())
+    return value
 
 
 def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
@@ -234,7 +255,9 @@ def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
     return [(int(a), int(b) - 1) for a, b in zip(edges[::2], edges[1::2], strict=True)]
 
 
-def _float(x: float) -> float | None:
+def _float(x: float | None) -> float | None:
+    if x is None:
+        return None
     x = float(x)
     return x if np.isfinite(x) else None
 

@@ -83,13 +83,20 @@ def comparison_table(result: StudyResult) -> ComparisonTable:
     breeding = any(s.kills is not None for s in result.scenarios)
     season = any(s.season_kills is not None for s in result.scenarios)
 
-    cols = [Column("scenario", "scenario", "text"),
-            Column("fitness_at_start", "fitness at start", "probability")]
+    cols = [Column("scenario", "scenario", "text")]
+    # the released cohort first: what the animals actually released will do
+    cols += [Column(f"cohort_kills_{g}", f"{g} kills by released animals in horizon", "count")
+             for g in groups]
+    cols += [Column("cohort_alive_at_horizon", "released alive at horizon", "probability"),
+             Column("cohort_median_survival_days", "median survival, days", "count")]
     if breeding:
-        cols += [Column(f"kills_per_predator_per_year_{g}", f"{g} kills per predator per year",
-                        "count") for g in groups]
-        cols += [Column(f"kills_per_year_population_{g}", f"{g} kills, population, per year",
-                        "count") for g in unwanted]
+        cols.append(Column("cohort_breeding_events", "breeding events in horizon", "count"))
+    cols.append(Column("fitness_at_start", "fitness at start", "probability"))
+    if breeding:
+        cols += [Column(f"kills_per_predator_per_year_{g}",
+                        f"{g} kills per place kept filled per year", "count") for g in groups]
+        cols += [Column(f"kills_per_year_population_{g}",
+                        f"{g} kills a year, places kept filled", "count") for g in unwanted]
         cols.append(Column("share_of_time_injured", "time injured", "fraction"))
     if season:
         cols += [Column(f"kills_per_predator_per_season_{g}", f"{g} kills per predator per season",
@@ -103,7 +110,15 @@ def comparison_table(result: StudyResult) -> ComparisonTable:
 
     rows = []
     for s in result.scenarios:
-        row: list = [s.name, s.fitness_at_start]
+        c = s.cohort
+        row: list = [s.name]
+        row += [c.kills_by_group.get(g, 0.0) if c else None for g in groups]
+        row += [c.alive_at_horizon if c else None,
+                None if c is None or c.median_survival_days is None
+                else float(c.median_survival_days)]
+        if breeding:
+            row.append(c.breeding_events if c else None)
+        row.append(s.fitness_at_start)
         if breeding:
             k = s.kills
             row += [k.kills_per_predator_per_year_by_group.get(g, 0.0) if k else None

@@ -87,6 +87,41 @@ def _describe(pattern: AttackPattern, name: str, mj_per_fraction: float) -> str:
     return f"{name} at reserves of {runs}"
 
 
+def _amount(x: float) -> str:
+    """An expected count in words-friendly form: whole from 10 up, one decimal below."""
+    if x >= 10:
+        return f"{x:,.0f}"
+    return "fewer than 0.1" if 0 < x < 0.05 else f"{x:.1f}"
+
+
+def cohort_sentences(result: ScenarioResult) -> list[str]:
+    """What the released animals do within the horizon (MODEL.md section 5)."""
+    c = result.cohort
+    if c is None:
+        return []
+    when = (f"over the {c.horizon_days}-day season" if result.currency == "season"
+            else f"in the first {c.horizon_days} days")
+    groups = sorted(c.kills_by_group, key=lambda g: (g.lower() in WILD_GROUPS, g))
+    kills = _list([f"{_amount(c.kills_by_group[g])} {g}" for g in groups])
+    animals = "animal" if c.animals == 1 else "animals"
+    out = [f"The {c.animals} released {animals} are expected to kill {kills} prey {when}."]
+    median = ("more than half are expected to be alive at the end" if c.median_survival_days
+              is None else f"half are expected to be dead within {c.median_survival_days} days")
+    alive = (f"{100 * c.alive_at_horizon:.0f} % of them" if c.alive_at_horizon >= 0.005
+             else "almost none of them")
+    out.append(f"{alive[0].upper()}{alive[1:]} are expected to be alive at the end "
+               f"({_amount(c.survivors)} animals); {median}"
+               + (f"; they are expected to breed {_amount(c.breeding_events)} times."
+                  if c.breeding_events is not None else "."))
+    return out
+
+
+def grid_sentence(result: ScenarioResult) -> list[str]:
+    """One plain sentence when the answer still depends on the grid (MODEL.md section 8)."""
+    g = result.grid_check
+    return [g.warning] if g is not None and g.warning else []
+
+
 def _kills_sentence(result: ScenarioResult) -> list[str]:
     out = []
     pop = result.predator.population
@@ -96,15 +131,16 @@ def _kills_sentence(result: ScenarioResult) -> list[str]:
         order = sorted(per_year, key=per_year.get, reverse=True)
         main = [f"{per_year[n]:.1f} {n}" for n in order if per_year[n] >= 0.05][:4]
         if main:
-            out.append(f"Each predator is predicted to kill about {_list(main)} a year"
-                       + (f"; for the {pop} predators of the area, "
+            out.append(f"In the long run, each place kept filled (every death replaced at once) "
+                       f"sees about {_list(main)} killed a year"
+                       + (f"; for {pop} places, "
                           + _list([f"{k.kills_per_year_population[n]:.0f} {n}"
                                    for n in order if per_year[n] >= 0.05][:4]) + " a year."
                           if pop > 1 else "."))
         unwanted = {g: v for g, v in k.kills_per_year_population_by_group.items()
                     if g.lower() not in WILD_GROUPS}
         for group, value in unwanted.items():
-            out.append(f"Predicted {group} kills by the whole population: {value:.1f} a year "
+            out.append(f"Long-run {group} kills with every death replaced: {value:.1f} a year "
                        f"({100 * k.diet_share_by_number_by_group.get(group, 0):.0f} % of kills "
                        "by number).")
         out.append(f"A predator spends {100 * k.share_of_time_injured:.0f} % of its days "
@@ -169,6 +205,10 @@ def findings(result: ScenarioResult, baseline: ScenarioResult | None = None) -> 
     """
     p = result.predator
     out: list[str] = []
+    if result.viability:
+        out.append(result.viability)
+    out.extend(cohort_sentences(result))
+    out.extend(grid_sentence(result))
     what = ("reaches breeding condition" if result.currency == "breeding"
             else "ends the season alive and in condition")
     out.append(f"A healthy animal arriving with {_pct(p.start_reserves)} reserves {what} with "
@@ -222,9 +262,9 @@ def findings(result: ScenarioResult, baseline: ScenarioResult | None = None) -> 
     out.extend(_kills_sentence(result))
     g = result.marginal_hunting_ability
     if np.isfinite(g):
+        el = result.elasticity
         out.append(f"Each 0.1 of extra hunting ability changes that probability by {0.1 * g:+.3f}"
-                   + (f" (elasticity {result.elasticity:.2f})." if np.isfinite(result.elasticity)
-                      else "."))
+                   + (f" (elasticity {el:.2f})." if el is not None and np.isfinite(el) else "."))
     if baseline is not None and baseline is not result:
         out.extend(_versus_baseline(result, baseline))
     return tuple(out)
@@ -235,11 +275,15 @@ def _versus_baseline(result: ScenarioResult, baseline: ScenarioResult) -> list[s
     d = result.fitness_at_start - baseline.fitness_at_start
     out.append(f"Compared with the baseline, the chance changes by {d:+.2f} "
                f"(from {baseline.fitness_at_start:.2f} to {result.fitness_at_start:.2f}).")
-    a, b = result.kills, baseline.kills
+    a, b = result.cohort, baseline.cohort
     if a is not None and b is not None:
-        for group, base in b.kills_per_year_population_by_group.items():
-            new = a.kills_per_year_population_by_group.get(group, 0.0)
+        for group, base in b.kills_by_group.items():
+            new = a.kills_by_group.get(group, 0.0)
             if base > 0 and abs(new - base) / base >= 0.05:
-                out.append(f"Population kills of {group} prey change from {base:.0f} to "
-                           f"{new:.0f} a year ({100 * (new - base) / base:+.0f} %).")
+                out.append(f"Kills of {group} prey by the released animals within the horizon "
+                           f"change from {_amount(base)} to {_amount(new)} "
+                           f"({100 * (new - base) / base:+.0f} %).")
+        if abs(a.alive_at_horizon - b.alive_at_horizon) >= 0.01:
+            out.append(f"The share of released animals alive at the horizon changes from "
+                       f"{100 * b.alive_at_horizon:.0f} % to {100 * a.alive_at_horizon:.0f} %.")
     return out

@@ -44,6 +44,9 @@ class GridCheck:
         and by group; None where the value at n is 0.
     cohort_kills_relative_change, cohort_kills_by_group_relative_change : dict
         Same for the released cohort's kills.
+    largest_kill_change : float or None
+        Largest |relative change| among the kills of prey and groups making at
+        least 1 % of kills (the ones a warning is about).
     warning : str or None
         A plain sentence when the answer still depends on the grid.
     problem : str or None
@@ -57,6 +60,7 @@ class GridCheck:
     kills_by_group_relative_change: dict[str, float | None]
     cohort_kills_relative_change: dict[str, float | None]
     cohort_kills_by_group_relative_change: dict[str, float | None]
+    largest_kill_change: float | None
     warning: str | None
     problem: str | None = None
 
@@ -89,11 +93,11 @@ def _changes(new: dict[str, float], old: dict[str, float]) -> dict[str, float | 
     return {k: _change(new.get(k, 0.0), v) for k, v in old.items()}
 
 
-def _flagged(changes: dict[str, float | None], values: dict[str, float]) -> list[str]:
+def _relevant(changes: dict[str, float | None], values: dict[str, float]) -> dict[str, float]:
+    """Changes of the prey or groups that make at least 1 % of kills."""
     total = sum(values.values())
-    return [k for k, c in changes.items()
-            if c is not None and total > 0 and values[k] >= SHARE_FLOOR * total
-            and abs(c) > RELATIVE_LIMIT]
+    return {k: abs(c) for k, c in changes.items()
+            if c is not None and total > 0 and values[k] >= SHARE_FLOOR * total}
 
 
 def compare_grids(n_pair: tuple[int, int], fitness: tuple[float, float],
@@ -109,8 +113,10 @@ def compare_grids(n_pair: tuple[int, int], fitness: tuple[float, float],
     reasons = []
     if abs(dv) > FITNESS_ABSOLUTE and (fit_change is None or abs(fit_change) > RELATIVE_LIMIT):
         reasons.append(f"fitness at the start reserves changes by {dv:+.3f}")
-    moved = sorted(set(_flagged(k, kills[1]) + _flagged(kg, kills_by_group[1])
-                       + _flagged(c, cohort[1]) + _flagged(cg, cohort_by_group[1])))
+    relevant = [_relevant(k, kills[1]), _relevant(kg, kills_by_group[1]),
+                _relevant(c, cohort[1]), _relevant(cg, cohort_by_group[1])]
+    largest = max((v for d in relevant for v in d.values()), default=None)
+    moved = sorted({name for d in relevant for name, v in d.items() if v > RELATIVE_LIMIT})
     if moved:
         reasons.append("kills of " + ", ".join(moved) + " change by more than 5 %")
     warning = None
@@ -118,10 +124,10 @@ def compare_grids(n_pair: tuple[int, int], fitness: tuple[float, float],
         warning = (f"The answer still depends on the grid: between {n_pair[0]} and {n_pair[1]} "
                    f"energy levels {' and '.join(reasons)}. Use a larger energy_levels "
                    f"(for example {min(2000, 2 * max(n_pair))}) before relying on these numbers.")
-    return GridCheck(n_pair, fit_change, k, kg, c, cg, warning)
+    return GridCheck(n_pair, fit_change, k, kg, c, cg, largest, warning)
 
 
 def not_possible(n: int, reason: str) -> GridCheck:
     """A grid check that could not be made, saying why."""
-    return GridCheck((check_levels(n), n), None, {}, {}, {}, {}, None, reason)
+    return GridCheck((check_levels(n), n), None, {}, {}, {}, {}, None, None, reason)
 

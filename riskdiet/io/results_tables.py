@@ -85,9 +85,11 @@ def _scenario(s: ScenarioResult, name: str) -> Table:
                      ", ".join(s.policy["injured"][j]), float(marginal[0, j])])
     what = ("probability of reaching breeding condition" if s.currency == "breeding"
             else "probability of ending the season alive and in condition (day 0)")
+    elasticity = ("— (undefined where fitness is 0)" if s.elasticity is None
+                  else f"{s.elasticity:.3f}")
     notes = [f"Fitness = {what}. Fitness at start: {s.fitness_at_start:.4f}.",
              f"Marginal value of hunting ability at start: {s.marginal_hunting_ability:+.4f} "
-             f"(elasticity {s.elasticity:.3f})."]
+             f"(elasticity {elasticity})."]
     return Table(name, f"Scenario {s.name}: decisions and fitness by reserve level", header,
                  rows, {1: "0.00", 2: "0%", 3: "0.0000", 4: "0.0000", 7: "0.0000"}, notes)
 
@@ -112,9 +114,51 @@ def _kills(result: StudyResult) -> Table:
                 z.expected_kills[p.name] if z else None,
                 z.expected_kills_population[p.name] if z else None,
             ])
-    return Table("Kills", "Predicted kills of each prey type (steady state or season)", header,
+    return Table("Kills", "Long-run kills of each prey type, places kept filled (every death "
+                 "replaced at once), or over the season", header,
                  rows, {3: "0.0000", 4: "0.00", 5: "0.0", 6: "0.0", 7: "0%", 8: "0%", 9: "0.00",
                         10: "0.0"})
+
+
+def _cohort(result: StudyResult) -> Table:
+    header = ["scenario", "prey", "group", "released_animals", "horizon_days", "cohort_kills"]
+    rows = []
+    for s in result.scenarios:
+        c = s.cohort
+        for p in s.prey:
+            rows.append([s.name, p.name, p.group, c.animals, c.horizon_days, c.kills[p.name]])
+    return Table("Cohort", "Kills by the animals released, within the planning horizon (no "
+                 "replacement)", header, rows, {5: "0.0"},
+                 notes=["The numbers to plan with: released_animals animals released on day 0, "
+                        "none replaced. The Kills sheet's yearly rates instead keep every place "
+                        "filled (each death replaced at once)."])
+
+
+def _grid_check(result: StudyResult) -> Table:
+    header = ["scenario", "levels_compared", "quantity", "name", "relative_change"]
+    rows = []
+    notes = []
+    for s in result.scenarios:
+        g = s.grid_check
+        if g is None:
+            continue
+        levels = f"{g.levels_compared[0]} vs {g.levels_compared[1]}"
+        if g.problem:
+            rows.append([s.name, levels, "not made", g.problem, None])
+            continue
+        rows.append([s.name, levels, "fitness_at_start", "", g.fitness_relative_change])
+        for quantity, values in (("kills", g.kills_relative_change),
+                                 ("kills_by_group", g.kills_by_group_relative_change),
+                                 ("cohort_kills", g.cohort_kills_relative_change),
+                                 ("cohort_kills_by_group",
+                                  g.cohort_kills_by_group_relative_change)):
+            rows += [[s.name, levels, quantity, k, v] for k, v in values.items()]
+        if g.warning:
+            notes.append(f"{s.name}: {g.warning}")
+    notes.append("Relative change = (value at the check's levels - value at the study's) / "
+                 "value at the study's; blank where the study's value is 0.")
+    return Table("Grid check", "Does the answer depend on the number of energy levels? "
+                 "(the same scenario on a second grid)", header, rows, {4: "0.0%"}, notes)
 
 
 def _predators(result: StudyResult) -> Table:
@@ -122,27 +166,40 @@ def _predators(result: StudyResult) -> Table:
               "mean_reserves_mj", "daily_survival", "expected_lifetime_days",
               "expected_breeding_events", "first_breeding_probability",
               "death_before_breeding_starvation", "death_before_breeding_attack",
-              "death_before_breeding_other", "survival_to_end", "chance_above_threshold"]
+              "death_before_breeding_other", "survival_to_end", "chance_above_threshold",
+              "cohort_alive_at_horizon", "cohort_survivors", "cohort_breeding_events",
+              "cohort_median_survival_days"]
     rows = []
+    notes = []
     for s in result.scenarios:
-        k, z = s.kills, s.season_kills
+        k, z, c = s.kills, s.season_kills, s.cohort
+        if k is not None and k.lifetime_note:
+            notes.append(f"{s.name}: lifetime and breeding events shown as a dash because "
+                         f"{k.lifetime_note}.")
+        if s.viability:
+            notes.append(f"{s.name}: {s.viability}")
         rows.append([
             s.name, s.currency,
             k.share_of_time_injured if k else None, k.mean_reserves_fraction if k else None,
             k.mean_reserves_mj if k else None, k.daily_survival if k else None,
-            (k.expected_lifetime_days if k.expected_lifetime_days is not None else "unbounded")
+            (k.expected_lifetime_days if k.expected_lifetime_days is not None else "—")
             if k else None,
             (k.expected_breeding_events if k.expected_breeding_events is not None
-             else "unbounded") if k else None,
+             else "—") if k else None,
             k.first_breeding_probability if k else None,
             k.death_before_breeding.get("starvation") if k else None,
             k.death_before_breeding.get("attack") if k else None,
             k.death_before_breeding.get("other") if k else None,
             z.survival_to_end if z else None, z.chance_above_threshold if z else None,
+            c.alive_at_horizon if c else None, c.survivors if c else None,
+            c.breeding_events if c else None,
+            (c.median_survival_days if c.median_survival_days is not None
+             else f"over {c.horizon_days} days") if c else None,
         ])
     return Table("Predators", "What happens to the predators themselves", header, rows,
                  {2: "0.0%", 3: "0%", 4: "0.0", 5: "0.00000", 6: "0", 7: "0.00", 8: "0.000",
-                  9: "0.000", 10: "0.000", 11: "0.000", 12: "0.000", 13: "0.000"})
+                  9: "0.000", 10: "0.000", 11: "0.000", 12: "0.000", 13: "0.000", 14: "0.000",
+                  15: "0.0", 16: "0.0"}, notes)
 
 
 def _comparison(result: StudyResult) -> Table:
@@ -216,13 +273,15 @@ def _provenance(result: StudyResult, date: str) -> Table:
 def results_tables(result: StudyResult, date: str | None = None) -> list[Table]:
     """Every table of the results workbook, in sheet order."""
     date = date or result.study.settings.report_date or _dt.date.today().isoformat()
-    taken = {"summary", "comparison", "kills", "predators", "classic", "map", "provenance"}
-    tables = [_summary(result, date), _comparison(result), _kills(result), _predators(result)]
+    taken = {"summary", "comparison", "cohort", "kills", "predators", "classic", "map",
+             "grid check", "provenance"}
+    tables = [_summary(result, date), _comparison(result), _cohort(result), _kills(result),
+              _predators(result)]
     tables += [_scenario(s, sheet_name(s.name, taken)) for s in result.scenarios]
     tables += [_classic(result)]
     if result.map is not None:
         tables.append(_map(result))
-    tables.append(_provenance(result, date))
+    tables += [_grid_check(result), _provenance(result, date)]
     return tables
 
 

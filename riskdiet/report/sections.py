@@ -245,8 +245,11 @@ class Builder:
     def summary(self) -> None:
         self.heading("Summary")
         self.para("What the model predicts for each scenario, in plain words, then the key "
-                  "numbers side by side. Section 2 shows the inputs behind them and section 6 "
-                  "what the model assumes.")
+                  "numbers side by side. The first numbers are those of the animals actually "
+                  "released, none replaced; the long-run rates further on keep every place "
+                  "filled (every death replaced at once). Section "
+                  f"{self.number('Inputs')} shows the inputs behind them and section "
+                  f"{self.number('Assumptions and cautions')} what the model assumes.")
         for s in self.result.scenarios:
             self.story.append(CondPageBreak(90))
             head = [Paragraph(esc(f"Scenario: {s.name}"), self.s.h2),
@@ -254,8 +257,34 @@ class Builder:
             lines = [Paragraph(esc(line), self.s.bullet, bulletText="•") for line in s.findings]
             self.story.append(KeepTogether(head + lines[:2]))
             self.story.extend(lines[2:])
+        self.sub("Released animals")
+        self.cohort_table(self.result.scenarios)
         self.sub("Key numbers")
         self.comparison()
+
+    def cohort_table(self, scenarios) -> None:
+        """The released cohort per scenario: kills by group, survival, breeding."""
+        rows = [["", *(esc(s.name) for s in scenarios)]]
+        cohorts = [s.cohort for s in scenarios]
+        groups: list[str] = []
+        for c in cohorts:
+            groups += [g for g in c.kills_by_group if g not in groups]
+        rows.append(["animals released"] + [_num(c.animals) for c in cohorts])
+        rows.append(["horizon [days]"] + [_num(c.horizon_days) for c in cohorts])
+        rows += [[f"{esc(g)} prey killed in the horizon"]
+                 + [_count(c.kills_by_group.get(g, 0.0)) for c in cohorts] for g in groups]
+        rows.append(["alive at the horizon [share of animals]"]
+                    + [format_value(c.alive_at_horizon, "fraction") for c in cohorts])
+        rows.append(["expected survivors"] + [_count(c.survivors) for c in cohorts])
+        rows.append(["median survival [days]"]
+                    + [_num(c.median_survival_days) if c.median_survival_days is not None
+                       else f"over {c.horizon_days}" for c in cohorts])
+        if any(c.breeding_events is not None for c in cohorts):
+            rows.append(["expected breeding events"] + [_count(c.breeding_events)
+                                                        for c in cohorts])
+        self.tables(rows, [Column(max_share=0.35)] + [NUM] * len(scenarios), note=(
+            "Expected numbers for the animals released on day 0, with none replaced; a dash "
+            "where a number does not apply (no breeding events in the season currency)."))
 
     def comparison(self) -> None:
         from riskdiet.compare import comparison_table
@@ -489,19 +518,32 @@ class Builder:
         self.heading("Predicted kills")
         breeding = self.scenarios_in(lambda s: s.kills is not None)
         season = self.scenarios_in(lambda s: s.season_kills is not None)
+        self.sub("The released animals, within the planning horizon")
+        self.para("What the animals actually released are expected to kill, with none "
+                  "replaced, from release day to the end of the horizon (the season in the "
+                  "season currency). These are the numbers to plan with.")
+        rows = [["prey (group)", *(esc(s.name) for s in self.result.scenarios)]]
+        group_of = {}
+        for s in self.result.scenarios:
+            group_of.update({p.name: p.group for p in s.prey})
+        for n in self.prey_union(list(self.result.scenarios)):
+            rows.append([f"{esc(n)} ({esc(group_of[n])})"]
+                        + [_count(s.cohort.kills.get(n)) for s in self.result.scenarios])
+        self.tables(rows, [Column(max_share=0.35)] + [NUM] * len(self.result.scenarios))
         if breeding:
-            self.sub("Long run, breeding currency")
+            self.sub("Long run, places kept filled (every death replaced)")
             self.para(
-                "Kills of a population of predators that all follow the decisions of section "
-                "4, in the long run: an animal that dies is replaced by a newcomer with the "
+                f"Kills of predators that all follow the decisions of section "
+                f"{self.number('Decisions by reserves')}, in the long run, with every place "
+                "kept filled: an animal that dies is replaced at once by a newcomer with the "
                 "start reserves, and an animal that breeds continues with the reserves after "
                 "breeding. Kills are counted at capture; totals multiply by the number of "
-                "predators in the area.")
+                "places (the population).")
             self.kill_table(breeding, "kills_per_predator_per_year",
                             "kills_per_predator_per_year_by_group", "per predator per year")
             self.kill_table(breeding, "kills_per_year_population",
                             "kills_per_year_population_by_group",
-                            "by all predators of the area, per year", population=True)
+                            "by all places kept filled, per year", population=True)
             self.life_table(breeding)
             for key in self.figure_order:
                 if key.endswith("-kills-breeding"):
@@ -542,7 +584,7 @@ class Builder:
         self.para(f"<b>Predicted kills {esc(words)}</b>", self.s.small)
         rows = [["prey (group)", *(esc(s.name) for s in scenarios)]]
         if population:
-            rows.append(["predators in the area"]
+            rows.append(["places kept filled (population)"]
                         + [_num(s.predator.population) for s in scenarios])
         group_of = {}
         for s in scenarios:
@@ -569,11 +611,9 @@ class Builder:
              [format_value(k.mean_reserves_fraction, "fraction") for k in ks]),
             ("chance of surviving a day", [f"{k.daily_survival:.4f}" for k in ks]),
             ("expected lifetime of a newcomer [days]",
-             [_num(k.expected_lifetime_days) if k.expected_lifetime_days is not None
-              else "unbounded" for k in ks]),
+             [_num(k.expected_lifetime_days) for k in ks]),
             ("expected breeding events of a newcomer",
-             [_num(k.expected_breeding_events) if k.expected_breeding_events is not None
-              else "unbounded" for k in ks]),
+             [_num(k.expected_breeding_events) for k in ks]),
             ("chance a newcomer breeds at least once", [_num(k.first_breeding_probability)
                                                         for k in ks]),
         ]
@@ -581,9 +621,14 @@ class Builder:
             lines.append((f"dies of {cause} before first breeding",
                           [_num(k.death_before_breeding.get(cause, 0.0)) for k in ks]))
         rows += [[esc(label), *values] for label, values in lines]
+        never = [s.name for s in scenarios if s.kills.lifetime_note]
         self.tables(rows, [Column(max_share=0.35)] + [NUM] * len(scenarios),
                     note="“attack”: killed by prey it attacked; “other”: background and "
-                         "injury mortality.")
+                         "injury mortality." + (
+                             f" A dash for {esc(_list(never))}: the animal practically never "
+                             "dies (its chance of dying before the next breeding event is "
+                             "below one in a billion), so a lifetime is unbounded."
+                             if never else ""))
 
     # --- 7. assumptions and cautions ---------------------------------------------------------
     def cautions(self) -> None:

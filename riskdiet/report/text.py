@@ -26,11 +26,13 @@ def scenario_summary(result: ScenarioResult) -> str:
     what = ("reaching breeding condition" if result.currency == "breeding"
             else f"ending the {p.season_days}-day season alive with reserves ≥ "
             f"{percent(p.season_reserve_threshold)}")
-    lines = [
-        f"Scenario: {result.name}",
-        f"  Chance of {what}, from {percent(p.start_reserves)} reserves, healthy: "
-        f"{result.fitness_at_start:.3f}",
-    ]
+    lines = [f"Scenario: {result.name}"]
+    if result.viability:
+        lines.append(f"  WARNING: {result.viability}")
+    lines += cohort_lines(result)
+    lines += long_run_lines(result)
+    lines.append(f"  Chance of {what}, from {percent(p.start_reserves)} reserves, healthy: "
+                 f"{result.fitness_at_start:.3f}")
     width = max(len(n) for n in result.prey_names)
     for cond in CONDITIONS:
         article = "an" if cond[0] in "aeiou" else "a"
@@ -40,10 +42,75 @@ def scenario_summary(result: ScenarioResult) -> str:
             lines.append(f"    {name:<{width}}  {ranges_text(result, name, cond)}")
     el = result.elasticity
     lines.append(f"  Marginal value of hunting ability: {result.marginal_hunting_ability:+.4f} "
-                 "per unit" + (f" (elasticity {el:+.3f})" if el == el else ""))
+                 "per unit" + (f" (elasticity {el:+.3f})" if el is not None
+                               else " (elasticity — : undefined where the chance is 0)"))
     lines.append(f"  Solver: {result.linear_solver}, {result.iterations} round(s), "
-                 f"Bellman residual {result.residual:.1e}")
+                 f"Bellman residual {result.residual:.1e} (relative to the values)")
+    lines.append("  " + grid_check_line(result))
     return "\n".join(lines)
+
+
+def count(x: float | None) -> str:
+    """An expected count for people: whole numbers from 10 up, one decimal below."""
+    if x is None:
+        return "—"
+    if x >= 10:
+        return f"{x:,.0f}"
+    if x > 0 and x < 0.05:
+        return "< 0.1"
+    return f"{x:.1f}"
+
+
+def cohort_lines(result: ScenarioResult) -> list[str]:
+    """The released cohort's numbers: what the animals released will do."""
+    c = result.cohort
+    if c is None:
+        return []
+    horizon = (f"the {c.horizon_days}-day season" if result.currency == "season"
+               else f"the first {c.horizon_days} days")
+    lines = [f"  Released animals ({c.animals}, no replacement), within {horizon}:"]
+    width = max(len(n) for n in c.kills)
+    kills = [f"    {name:<{width}}  {count(v)}" for name, v in c.kills.items()]
+    groups = ", ".join(f"{g} {count(v)}" for g, v in c.kills_by_group.items())
+    median = ("over the horizon" if c.median_survival_days is None
+              else f"{c.median_survival_days} days")
+    lines.append("    expected kills by prey:")
+    lines += ["  " + k for k in kills]
+    lines.append(f"    by group: {groups}")
+    lines.append(f"    alive at the end: {100 * c.alive_at_horizon:.0f} % of animals "
+                 f"({count(c.survivors)} expected survivors); median survival {median}")
+    if c.breeding_events is not None:
+        lines.append(f"    expected breeding events: {count(c.breeding_events)}")
+    return lines
+
+
+def long_run_lines(result: ScenarioResult) -> list[str]:
+    """Long-run kills: places kept filled, every death replaced at once."""
+    k = result.kills
+    if k is None:
+        return []
+    groups = ", ".join(f"{g} {count(v)}" for g, v in k.kills_per_year_population_by_group.items())
+    line = [f"  Long-run kills a year by {result.predator.population} places kept filled "
+            f"(every death replaced): {groups}"]
+    if k.lifetime_note:
+        line.append(f"    (expected lifetime: — ; {k.lifetime_note})")
+    return line
+
+
+def grid_check_line(result: ScenarioResult) -> str:
+    """One line on whether the answer still depends on the grid (MODEL.md section 8)."""
+    g = result.grid_check
+    if g is None:
+        return "Grid check: not made"
+    if g.problem:
+        return f"Grid check: {g.problem}"
+    if g.warning:
+        return f"Grid check: WARNING. {g.warning}"
+    change = g.fitness_relative_change
+    text = "—" if change is None else f"{100 * change:+.2f} %"
+    return (f"Grid check: at {g.levels_compared[0]} instead of {g.levels_compared[1]} energy "
+            f"levels fitness changes by {text} and no kill estimate by more than 5 %: "
+            "fine enough")
 
 
 def solve_summary(result: StudyResult) -> str:

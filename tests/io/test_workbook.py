@@ -328,7 +328,7 @@ FAULTS = {
         ["Prey!L1 (energy_mj): expected a column named energy_mj, found no such column"]),
     "missing predator row": (
         _delete_capacity_row,
-        ["Predator!A21 (reserve_capacity_mj: row missing): expected a number > 0"]),
+        ["Predator!A22 (reserve_capacity_mj: row missing): expected a number > 0"]),
     "duplicate prey name": (
         _set("Prey", "A4", "Forest deer"),
         ['Prey!A4 (name): expected a unique prey name (also in row 2), found "Forest deer"']),
