@@ -28,12 +28,12 @@ def line_of(text: str, start: str) -> str:
 def test_prey_table_shows_encounters_and_daily_encounter_probability():
     """p = 1 - exp(-m) is the chance of at least one Poisson encounter in a day (MODEL.md
     section 2; the zero term of the Poisson distribution). Worked by hand: forest deer
-    m = 0.8 gives 1 - e^-0.8 = 0.5507; upland ewe by density, m = 12 km²/day x 0.02/km² =
+    m = 1.2 gives 1 - e^-1.2 = 0.6988; upland ewe by density, m = 12 km²/day x 0.02/km² =
     0.24, gives 1 - e^-0.24 = 0.2134."""
     result = run_check(DEMO_JSON)
     assert result.exit_code == 0, result.output
     deer = line_of(result.stdout, "forest deer")
-    assert "0.8" in deer.split() and f"{1 - math.exp(-0.8):.4f}" in deer.split()
+    assert "1.2" in deer.split() and f"{1 - math.exp(-1.2):.4f}" in deer.split()
     ewe = line_of(result.stdout, "upland ewe")
     m = 12 * 0.02
     assert f"{m:.4g}" in ewe.split() and f"{1 - math.exp(-m):.4f}" in ewe.split()
@@ -66,7 +66,7 @@ def test_given_daily_cost_is_not_marked():
     marked as estimated."""
     text = check_text(build_study(json.loads(DEMO_JSON.read_text())))
     assert "estimated from body mass" not in text
-    assert line_of(text, "daily_cost_mj").split()[1:3] == ["7", "MJ/day"]
+    assert line_of(text, "daily_cost_mj").split()[1:3] == ["5", "MJ/day"]
 
 
 def test_check_lists_scenarios_uncertainty_settings_and_warnings():
@@ -81,7 +81,7 @@ def test_check_lists_scenarios_uncertainty_settings_and_warnings():
         for ch in sc.changes:
             assert ch.describe() in text
     unc = line_of(text, "wild boar   injury_chance")
-    assert unc.split()[3:7] == ["0.05", "0.3", "triangular", "0.15"]
+    assert unc.split()[3:7] == ["0.2", "0.5", "triangular", "0.35"]
     assert "2026-12-01" in line_of(text, "report_date")
     assert study.notices and all(str(n) in text for n in study.notices)
     assert "wildlife law" in text

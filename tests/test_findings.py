@@ -17,11 +17,14 @@ def _solve(raw):
 
 
 def test_findings_quote_the_computed_numbers():
-    """The first sentence quotes the computed fitness at start to two places, and the kill
-    sentence quotes the computed kills (generated text follows the numbers)."""
+    """The first sentence quotes the released cohort's computed kills by group, a
+    later one the computed fitness at start to two places, and the kill sentence
+    quotes the computed long-run kills (generated text follows the numbers)."""
     result = riskdiet.solve(riskdiet.load_study(EXAMPLE))
     for s in result.scenarios:
-        assert f"probability {s.fitness_at_start:.2f}" in s.findings[0]
+        livestock = s.cohort.kills_by_group["livestock"]
+        assert f"{livestock:,.0f} livestock" in s.findings[0]
+        assert any(f"probability {s.fitness_at_start:.2f}" in f for f in s.findings)
         top = max(s.kills.kills_per_predator_per_year.items(), key=lambda kv: kv[1])
         assert any(f"{top[1]:.1f} {top[0]}" in f for f in s.findings)
 
