@@ -165,5 +165,5 @@ def test_a_solve_that_does_not_settle_is_an_error_naming_the_scenario(monkeypatc
     numbers shown as valid (MODEL.md section 3)."""
     monkeypatch.setattr(solver.solve_breeding, "__defaults__", (1,))
     raw = injury_raw()  # needs four rounds
-    with pytest.raises(SolveError, match="scenario 'baseline'.*did not settle"):
+    with pytest.raises(SolveError, match=r"scenario .baseline.*did not settle"):
         analysis.solve(build_study(raw))

@@ -155,7 +155,7 @@ def test_named_cohort_scales_by_the_animals_released(injured_case):
 def test_season_cohort_is_the_season_propagation():
     """In the season currency the cohort's horizon is the season and its
     numbers are those of the season's forward propagation; breeding is null."""
-    predator, prey, grid = grid_of(injury_raw(currency="season", season_days=30))
+    _, _, grid = grid_of(injury_raw(currency="season", season_days=30))
     solution = solve_grid(grid)
     out = released_cohort(grid, solution, 365)
     assert out.horizon_days == 30

@@ -150,6 +150,26 @@ def _list(names) -> str:
     return ", ".join(names[:-1]) + " and " + names[-1]
 
 
+def grid_summary(result: StudyResult) -> str:
+    """One sentence for page 1: is the grid fine enough for every scenario?"""
+    checks = [(s.name, s.grid_check) for s in result.scenarios if s.grid_check is not None]
+    flagged = [name for name, g in checks if g.warning]
+    failed = [name for name, g in checks if g.problem]
+    if flagged:
+        return ("Accuracy: the numbers of " + _list(flagged) + " still depend on the number of "
+                "energy levels (see the grid check in the technical appendix); treat them as "
+                "rough until the study is solved with a larger energy_levels.")
+    levels = {g.levels_compared for _, g in checks if not g.problem}
+    pair = (f" between {next(iter(levels))[0]} and {next(iter(levels))[1]} energy levels"
+            if len(levels) == 1 else "")
+    text = ("Accuracy: solved again on a second grid" + pair + ", no scenario's fitness or "
+            "kill estimates change beyond the grid check's limits (5 %; see the technical "
+            "appendix): the grid is fine enough.")
+    if failed:
+        text += " The check could not be made for " + _list(failed) + " (see the appendix)."
+    return text
+
+
 class Builder:
     """Collects the flowables of the brief; one method per section.
 
@@ -250,6 +270,7 @@ class Builder:
                   "filled (every death replaced at once). Section "
                   f"{self.number('Inputs')} shows the inputs behind them and section "
                   f"{self.number('Assumptions and cautions')} what the model assumes.")
+        self.para(esc(grid_summary(self.result)))
         for s in self.result.scenarios:
             self.story.append(CondPageBreak(90))
             head = [Paragraph(esc(f"Scenario: {s.name}"), self.s.h2),
