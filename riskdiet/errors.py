@@ -8,7 +8,10 @@ user can fix all of them in one pass.
 
 from __future__ import annotations
 
+import unicodedata
 from dataclasses import dataclass
+
+_UNSHOWABLE = {"Cc", "Cs", "Co", "Cn", "Zl", "Zp"}
 
 
 @dataclass(frozen=True)
@@ -85,7 +88,16 @@ def describe(value: object) -> str:
     if isinstance(value, str):
         if value.strip() == "":
             return "nothing (blank)"
-        return f'"{value}"'
+        if len(value) > 200:
+            value = value[:200] + "…"
+        # control characters and unpaired surrogates would garble or break the console
+        shown = "".join(f"\\u{ord(c):04x}" if unicodedata.category(c) in _UNSHOWABLE else c
+                        for c in value)
+        return f'"{shown}"'
     if isinstance(value, bool):
         return "yes" if value else "no"
+    if isinstance(value, int) and abs(value) > 10**30:
+        return f"a whole number of about {value.bit_length() * 0.30103:.0f} digits"
+    if isinstance(value, (dict, list)):
+        return "a mapping" if isinstance(value, dict) else f"a list of {len(value)} item(s)"
     return repr(value)
