@@ -33,7 +33,7 @@ class Problem:
     found: str
 
     def __str__(self) -> str:
-        return f"{self.where}: expected {self.expected}, found {self.found}"
+        return shown(f"{self.where}: expected {self.expected}, found {self.found}")
 
 
 @dataclass(frozen=True)
@@ -52,7 +52,7 @@ class Notice:
     message: str
 
     def __str__(self) -> str:
-        return f"{self.where}: {self.message}"
+        return shown(f"{self.where}: {self.message}")
 
 
 class RiskdietError(Exception):
@@ -81,6 +81,13 @@ class OutputExistsError(RiskdietError):
     """An output file already exists and overwriting was not asked for."""
 
 
+def shown(text: str) -> str:
+    """Text with control characters, line separators and unpaired surrogates escaped
+    (``\\u0000``), so that one message stays one printable line."""
+    return "".join(f"\\u{ord(c):04x}" if unicodedata.category(c) in _UNSHOWABLE else c
+                   for c in text)
+
+
 def describe(value: object) -> str:
     """Quote a found value for an error message (strings in quotes, blanks named)."""
     if value is None:
@@ -91,9 +98,7 @@ def describe(value: object) -> str:
         if len(value) > 200:
             value = value[:200] + "…"
         # control characters and unpaired surrogates would garble or break the console
-        shown = "".join(f"\\u{ord(c):04x}" if unicodedata.category(c) in _UNSHOWABLE else c
-                        for c in value)
-        return f'"{shown}"'
+        return f'"{shown(value)}"'
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, int) and abs(value) > 10**30:
