@@ -114,7 +114,7 @@ def test_mutated_json_studies_never_crash(tmp_path_factory, text):
 
 cell_values = st.one_of(
     values.filter(lambda v: not isinstance(v, (list, dict))
-                  and not (isinstance(v, str) and any(ord(c) < 32 and c not in "\t\n\r"
+                  and not (isinstance(v, str) and any((ord(c) < 32 and c not in "\t\n\r")
                                                       or 0xD800 <= ord(c) <= 0xDFFF
                                                       for c in v))
                   and not (isinstance(v, int) and not isinstance(v, bool) and abs(v) > 2**53)),
