@@ -229,3 +229,17 @@ def test_help_shows_plain_flags_escaped_brackets_and_runnable_examples():
     assert re.search(r"--json\s+Print one JSON", solve)
     assert "riskdiet-demo/harrow-vale.xlsx" in solve and "examples/" not in solve
     assert "riskdiet[cluster]" in run("map", "--help").stdout
+
+
+def test_brief_with_long_unbroken_texts(tmp_path):
+    """Notes of 3000 characters without a space (a pasted link) made the brief's table
+    layout give other columns a negative width (ValueError); the brief is now written."""
+    raw = json.loads(DEMO_JSON.read_text())
+    raw["settings"] = {"report_date": "2026-12-01", "study_name": "S" * 450}
+    raw["prey"][0]["note"] = "N" * 3000
+    raw["scenarios"][0]["note"] = "Q" * 3000
+    path = tmp_path / "study.json"
+    path.write_text(json.dumps(raw))
+    result = run("brief", path, "--out", tmp_path / "b.pdf")
+    assert result.exit_code == 0, (result.output, result.exception)
+    assert (tmp_path / "b.pdf").read_bytes().startswith(b"%PDF")
