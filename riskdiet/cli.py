@@ -6,55 +6,131 @@ inside the commands so that ``riskdiet --help`` stays fast.
 
 from __future__ import annotations
 
+import contextlib
 import json
+from collections.abc import Iterator
 from pathlib import Path
 
 import typer
 from rich.console import Console
+from typer.core import TyperOption
 
 import riskdiet
 from riskdiet.errors import Problem, RiskdietError, StudyError
 
+HELP = """What a predator will kill, and at what risk to itself: state-dependent diet
+predictions for wildlife managers.
+
+Examples (riskdiet demo writes riskdiet-demo/harrow-vale.xlsx, an invented study):
+
+  riskdiet demo
+
+  riskdiet check riskdiet-demo/harrow-vale.xlsx
+
+  riskdiet solve riskdiet-demo/harrow-vale.xlsx --out results.xlsx
+
+  riskdiet brief riskdiet-demo/harrow-vale.xlsx --out brief.pdf
+
+  riskdiet template my-study.xlsx
+"""
+
 app = typer.Typer(
     name="riskdiet",
-    help="What a predator will kill, and at what risk to itself: state-dependent diet "
-    "predictions for wildlife managers.",
+    help=HELP,
     pretty_exceptions_enable=False,
     no_args_is_help=True,
     add_completion=False,
 )
 
 STUDY_HELP = "Study file: a filled workbook (.xlsx) or a study file (.json)."
+DEMO = "riskdiet-demo/harrow-vale.xlsx"
+"""The study every example uses: written by ``riskdiet demo`` (so examples run after pip)."""
+
+INTERRUPTED = 130
+"""Exit status after Ctrl-C (128 + SIGINT, the shell convention)."""
+
+_type_column = TyperOption.display_type_rich
+
+
+def _flag_type(self: TyperOption, ctx) -> str | None:
+    # a flag takes no value: "<bool>" in help invites "--json true", which fails
+    return None if self.is_flag else _type_column(self, ctx)
+
+
+TyperOption.display_type_rich = _flag_type
 
 
 def _stdout() -> Console:
-    return Console(highlight=False, soft_wrap=True)
+    # user text is printed verbatim: no markup, no emoji codes (":zero:"), no highlighting
+    return Console(highlight=False, soft_wrap=True, markup=False, emoji=False)
+
+
+def _stderr() -> Console:
+    return Console(stderr=True, highlight=False, soft_wrap=True, markup=False, emoji=False)
+
+
+@contextlib.contextmanager
+def _guard(outputs=None) -> Iterator[None]:
+    """Run a command body: library errors exit 2, Ctrl-C exits 130; staged outputs go away."""
+    try:
+        yield
+    except RiskdietError as exc:
+        if outputs is not None:
+            outputs.discard()
+        raise _fail(exc) from None
+    except KeyboardInterrupt:
+        if outputs is not None:
+            outputs.discard()
+        _stderr().print("riskdiet: interrupted; nothing was written.")
+        raise typer.Exit(INTERRUPTED) from None
+    except OSError as exc:  # last resort: an operating-system error is never a traceback
+        if outputs is not None:
+            outputs.discard()
+        where = exc.filename or "riskdiet"
+        _stderr().print(f"riskdiet: {where}: {exc.strerror or exc}; nothing was written.")
+        raise typer.Exit(2) from None
+    finally:
+        if outputs is not None:
+            outputs.discard()
+
+
+def _load(path: Path, warn: bool = True):
+    """Load a study; its warnings go to stderr (every command shows what check shows)."""
+    from riskdiet.io import load_study
+
+    study = load_study(path)
+    if warn and study.notices:
+        _stderr().print(warnings_text(study))
+    return study
+
+
+def warnings_text(study) -> str:
+    """The study's warnings, one per line, each with its place."""
+    return "\n".join([f"Warnings ({len(study.notices)}):",
+                      *(f"  {n}" for n in study.notices)])
 
 
 def _fail(exc: RiskdietError) -> typer.Exit:
     """Print a library error to stderr (no traceback) and return the exit to raise."""
-    err = Console(stderr=True, highlight=False, soft_wrap=True)
+    err = _stderr()
     if isinstance(exc, StudyError):
         heading = f"riskdiet: {len(exc.problems)} problem(s)"
         if exc.source:
             heading += f" in {exc.source}"
-        err.print(heading + ":", markup=False)
+        err.print(heading + ":")
         for p in exc.problems:
-            err.print(f"  {p}", markup=False)
+            err.print(f"  {p}")
     else:
-        err.print(f"riskdiet: {exc}", markup=False)
+        err.print(f"riskdiet: {exc}")
     return typer.Exit(2)
 
 
 def _solved(path: Path):
     """Load and solve a study, turning library errors into exit code 2."""
     from riskdiet.analysis import solve as solve_study
-    from riskdiet.io import load_study
 
-    try:
-        return solve_study(load_study(path))
-    except RiskdietError as exc:
-        raise _fail(exc) from None
+    with _guard():
+        return solve_study(_load(path))
 
 
 def _version(value: bool) -> None:
@@ -82,34 +158,48 @@ def solve(
 ) -> None:
     """Solve every scenario and print the decisions by reserves.
 
-    Example: riskdiet solve examples/harrow-vale.xlsx --out results.xlsx
+    Example (after riskdiet demo): riskdiet solve riskdiet-demo/harrow-vale.xlsx --out
+    results.xlsx
     """
     from riskdiet.analysis import solve as solve_study
-    from riskdiet.io import load_study
+    from riskdiet.io.atomic import OutputSet
 
-    try:
-        loaded = load_study(study)
+    outputs = OutputSet(force, (study,))
+    with _guard(outputs):
         if out is not None and out.suffix.lower() != ".xlsx":
             raise StudyError([Problem(f"--out {out}", "a file name ending in .xlsx",
                                       f'"{out.suffix or "no ending"}"')])
+        loaded = _load(study, warn=as_json)
+        # every output path is checked before the (possibly long) computation
+        if out is not None:
+            outputs.plan(out)
+        if csv_dir is not None:
+            from riskdiet.io.results_workbook import csv_paths
+
+            for path in csv_paths(loaded, csv_dir):
+                outputs.plan(path)
         result = solve_study(loaded)
-        written = []
         if out is not None:
             from riskdiet.io.results_workbook import write_results_workbook
 
-            written.append(write_results_workbook(result, out, force))
+            write_results_workbook(result, out, force, outputs=outputs)
         if csv_dir is not None:
             from riskdiet.io.results_workbook import write_results_csv
 
-            written += write_results_csv(result, csv_dir, force)
-    except RiskdietError as exc:
-        raise _fail(exc) from None
-    if as_json:
-        typer.echo(json.dumps(result.to_dict(), indent=1, allow_nan=False))
-    else:
-        from riskdiet.report.text import solve_summary
+            write_results_csv(result, csv_dir, force, outputs=outputs)
+        if as_json:
+            text = json.dumps(result.to_dict(), indent=1, allow_nan=False)
+        else:
+            from riskdiet.report.text import solve_summary
 
-        _stdout().print(solve_summary(result), markup=False)
+            text = solve_summary(result)
+            if loaded.notices:
+                text = warnings_text(loaded) + "\n\n" + text
+        written = outputs.commit()
+    if as_json:
+        typer.echo(text)
+    else:
+        _stdout().print(text)
     for path in written:
         typer.echo(f"wrote {path}", err=as_json)
 
@@ -118,18 +208,18 @@ def solve(
 def rank(study: Path = typer.Argument(..., help=STUDY_HELP)) -> None:
     """Print the classic prey model per scenario: profitability ranking and diets.
 
-    Example: riskdiet rank examples/harrow-vale.xlsx
+    Example (after riskdiet demo): riskdiet rank riskdiet-demo/harrow-vale.xlsx
     """
     from riskdiet.report.text import classic_summary
 
-    _stdout().print(classic_summary(_solved(study)), markup=False)
+    _stdout().print(classic_summary(_solved(study)))
 
 
 @app.command()
 def compare(study: Path = typer.Argument(..., help=STUDY_HELP)) -> None:
     """Compare scenarios in one table, with changes against the baseline.
 
-    Example: riskdiet compare examples/harrow-vale.xlsx
+    Example (after riskdiet demo): riskdiet compare riskdiet-demo/harrow-vale.xlsx
     """
     from riskdiet.compare import comparison_table
     from riskdiet.report.text import comparison_renderables
@@ -139,9 +229,9 @@ def compare(study: Path = typer.Argument(..., help=STUDY_HELP)) -> None:
     for table in comparison_renderables(comparison_table(result), max(console.width, 100)):
         console.print(table)
     for s in result.scenarios:
-        console.print(f"\n{s.name}:", markup=False)
+        console.print(f"\n{s.name}:")
         for line in s.findings:
-            console.print(f"  - {line}", markup=False)
+            console.print(f"  - {line}")
 
 
 @app.command()
@@ -155,10 +245,8 @@ def template(
     """
     from riskdiet.io.template import write_template
 
-    try:
+    with _guard():
         written = write_template(path, force=force)
-    except RiskdietError as exc:
-        raise _fail(exc) from None
     typer.echo(f"wrote {written}; fill it in, then run: riskdiet check {written}")
 
 
@@ -168,17 +256,13 @@ def check(study: Path = typer.Argument(..., help=STUDY_HELP)) -> None:
 
     Example: riskdiet check my-study.xlsx
     """
-    from riskdiet.io import load_study
     from riskdiet.report.check import check_text
 
-    try:
-        loaded = load_study(study)
-        from riskdiet.maps import request_from_settings
-
-        request_from_settings(loaded)
-    except RiskdietError as exc:
-        raise _fail(exc) from None
-    _stdout().print(check_text(loaded), markup=False, end="")
+    with _guard():
+        # load_study runs every validation the other commands run (map settings included)
+        loaded = _load(study, warn=False)
+        text = check_text(loaded)
+    _stdout().print(text, end="")
 
 
 @app.command()
@@ -196,24 +280,32 @@ def brief(
 ) -> None:
     """Write the PDF brief: findings, inputs, decisions, predicted kills, cautions.
 
-    Example: riskdiet brief examples/harrow-vale.xlsx --out harrow-vale-brief.pdf
+    Example (after riskdiet demo): riskdiet brief riskdiet-demo/harrow-vale.xlsx --out
+    brief.pdf
     """
     from riskdiet.analysis import solve as solve_study
-    from riskdiet.io import load_study
-    from riskdiet.io.atomic import check_writable
-    from riskdiet.report.brief import write_brief
+    from riskdiet.io.atomic import OutputSet
+    from riskdiet.report.brief import brief_date, write_brief
 
     target = out if out is not None else study.with_name(f"{study.stem}-brief.pdf")
-    try:
+    outputs = OutputSet(force, (study,))
+    with _guard(outputs):
         if target.suffix.lower() != ".pdf":
             raise StudyError([Problem(f"--out {target}", "a file name ending in .pdf",
                                       f'"{target.suffix or "no ending"}"')])
-        check_writable(target, force, (study,))
-        result = solve_study(load_study(study))
+        loaded = _load(study)
+        brief_date(loaded, date)  # a bad --date fails before the computation
+        outputs.plan(target)
+        if figures is not None:
+            from riskdiet.report.figures import decision_figure_keys
+
+            for key in decision_figure_keys(loaded):
+                for suffix in (".png", ".svg"):
+                    outputs.plan(figures / f"{key}{suffix}")
+        result = solve_study(loaded)
         written = write_brief(result, target, paper=paper.strip().lower(), date=date,
-                              force=force, figures_dir=figures)
-    except RiskdietError as exc:
-        raise _fail(exc) from None
+                              force=force, figures_dir=figures, outputs=outputs)
+        outputs.commit()
     typer.echo(f"wrote {written[0]}")
     if figures is not None:
         typer.echo(f"wrote {len(written) - 1} figure files into {figures}")
@@ -230,10 +322,8 @@ def demo(
     """
     from riskdiet.demo import write_demo
 
-    try:
+    with _guard():
         files = write_demo(out, force)
-    except RiskdietError as exc:
-        raise _fail(exc) from None
     typer.echo(f"Demo study (invented, illustrative):  {files.workbook}")
     typer.echo(f"Its results:                          {files.results}")
     typer.echo(f"Its brief:                            {files.brief}")
@@ -256,43 +346,42 @@ def map_command(
                                      "(default: the first group that is not wild)."),
     workers: int = typer.Option(1, "--workers", min=1, help="Local worker processes."),
     scheduler: str | None = typer.Option(None, "--scheduler", help="Address of a running Dask "
-                                         "distributed scheduler (needs riskdiet[cluster])."),
+                                         "distributed scheduler, e.g. tcp://10.0.0.5:8786 "
+                                         "(needs riskdiet\\[cluster])."),
     quiet: bool = typer.Option(False, "--quiet", help="No progress bar."),
     force: bool = typer.Option(False, "--force", help="Replace existing output files."),
 ) -> None:
     """Map the decision rule, the value of hunting skill and kills over two inputs.
 
-    Example: riskdiet map examples/harrow-vale.xlsx --x "wild boar:encounter_share=0:1:41"
-    --y "hunting_ability=0.2:1.6:41" --out maps/
+    Example (after riskdiet demo): riskdiet map riskdiet-demo/harrow-vale.xlsx --x "wild
+    boar:encounter_share=0:1:41" --y "hunting_ability=0.2:1.6:41" --out maps/
     """
-    from riskdiet.io import load_study
+    from riskdiet.io.atomic import OutputSet
 
-    try:
-        loaded = load_study(study)
+    outputs = OutputSet(force, (study,))
+    with _guard(outputs):
+        loaded = _load(study)
         request = _map_request(loaded, x, y, scenario, gradient)
         chosen = _map_group(loaded, group)
         if out is not None:
             from riskdiet.io.map_files import check_map_files
 
-            # refuse existing outputs before the (possibly long) computation
-            check_map_files(loaded, request, out, chosen, force)
+            # refuse existing or unwritable outputs before the (possibly long) computation
+            check_map_files(loaded, request, out, chosen, force, outputs)
         result = _run_map(loaded, request, workers, scheduler, quiet)
         from riskdiet.map_reading import read_map
         from riskdiet.report.map_figures import default_group
 
         chosen = chosen or default_group(result)
-        written = []
         if out is not None:
             from riskdiet.io.map_files import write_map_files
 
-            written = write_map_files(result, out, chosen, force)
-    except RiskdietError as exc:
-        raise _fail(exc) from None
+            write_map_files(result, out, chosen, force, outputs)
+        written = outputs.commit()
     console = _stdout()
     for line in read_map(result, chosen):
-        console.print(line, markup=False)
-    console.print(f"Largest Bellman residual over the map: {result.max_residual:.1e}",
-                  markup=False)
+        console.print(line)
+    console.print(f"Largest Bellman residual over the map: {result.max_residual:.1e}")
     for path in written:
         typer.echo(f"wrote {path}")
 
@@ -347,20 +436,81 @@ def _run_map(study, request, workers: int, scheduler: str | None, quiet: bool):
             bar.update(task, completed=done)
 
         if scheduler:
-            try:
-                from distributed import Client
-            except ImportError:
-                raise RiskdietError("--scheduler needs Dask distributed: pip install "
-                                    "'riskdiet[cluster]'") from None
-            with Client(scheduler) as client:
+            with _scheduler_client(scheduler) as client:
                 return make_map(study, request, client.get_executor(),
                                 bands=max(8, 4 * len(client.nthreads())), progress=progress)
         if workers > 1:
-            from concurrent.futures import ProcessPoolExecutor
-
-            with ProcessPoolExecutor(max_workers=workers) as pool:
-                return make_map(study, request, pool, bands=2 * workers, progress=progress)
+            return _map_in_pool(study, request, workers, progress)
         return make_map(study, request, progress=progress)
+
+
+def _ignore_interrupt() -> None:
+    # workers leave Ctrl-C to the main process, which stops them (no tracebacks from workers)
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def _map_in_pool(study, request, workers: int, progress):
+    """Solve a map in a local process pool; Ctrl-C or a dead worker stops every worker."""
+    from concurrent.futures import ProcessPoolExecutor
+    from concurrent.futures.process import BrokenProcessPool
+
+    from riskdiet.maps import make_map
+
+    pool = ProcessPoolExecutor(max_workers=workers, initializer=_ignore_interrupt)
+    try:
+        return make_map(study, request, pool, bands=2 * workers, progress=progress)
+    except BrokenProcessPool:
+        raise RiskdietError("a map worker process died (out of memory, or killed); nothing "
+                            "was written. Try fewer --workers or a smaller map.") from None
+    except BaseException:
+        # stop promptly: do not wait for the bands still being solved
+        for process in list((getattr(pool, "_processes", None) or {}).values()):
+            process.terminate()
+        raise
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
+
+
+SCHEDULER_EXPECTED = "the address of a running Dask scheduler, e.g. tcp://10.0.0.5:8786"
+
+
+@contextlib.contextmanager
+def _scheduler_client(address: str):
+    """Connect to a Dask scheduler, or fail fast with a located message (no 30 s wait)."""
+    import socket
+    from urllib.parse import urlsplit
+
+    try:
+        from distributed import Client
+    except ImportError:
+        raise RiskdietError("--scheduler needs Dask distributed: pip install "
+                            "'riskdiet[cluster]'") from None
+    text = address.strip()
+    url = text if "://" in text else "tcp://" + text
+    try:
+        parts = urlsplit(url)
+        host, port = parts.hostname, parts.port
+    except ValueError:
+        host, port, parts = None, None, None
+    if parts is None or parts.scheme not in ("tcp", "tls") or not host or port is None:
+        raise StudyError([Problem("--scheduler", SCHEDULER_EXPECTED,
+                                  f'"{address}" (not a host:port address)')])
+    try:
+        socket.create_connection((host, port), timeout=5).close()
+    except OSError as exc:
+        reason = exc.strerror or str(exc) or "no answer"
+        raise StudyError([Problem("--scheduler", SCHEDULER_EXPECTED,
+                                  f'"{address}": nothing answers there ({reason})')]) from None
+    try:
+        client = Client(url, timeout="10s")
+    except Exception as exc:  # any failure to connect is the address's fault for the user
+        raise StudyError([Problem("--scheduler", SCHEDULER_EXPECTED,
+                                  f'"{address}": no Dask scheduler answered '
+                                  f"({type(exc).__name__})")]) from None
+    with client:
+        yield client
 
 
 def main() -> None:

@@ -8,7 +8,10 @@ user can fix all of them in one pass.
 
 from __future__ import annotations
 
+import unicodedata
 from dataclasses import dataclass
+
+_UNSHOWABLE = {"Cc", "Cs", "Co", "Cn", "Zl", "Zp"}
 
 
 @dataclass(frozen=True)
@@ -30,7 +33,7 @@ class Problem:
     found: str
 
     def __str__(self) -> str:
-        return f"{self.where}: expected {self.expected}, found {self.found}"
+        return shown(f"{self.where}: expected {self.expected}, found {self.found}")
 
 
 @dataclass(frozen=True)
@@ -49,7 +52,7 @@ class Notice:
     message: str
 
     def __str__(self) -> str:
-        return f"{self.where}: {self.message}"
+        return shown(f"{self.where}: {self.message}")
 
 
 class RiskdietError(Exception):
@@ -103,6 +106,13 @@ class OutputExistsError(RiskdietError):
     """An output file already exists and overwriting was not asked for."""
 
 
+def shown(text: str) -> str:
+    """Text with control characters, line separators and unpaired surrogates escaped
+    (``\\u0000``), so that one message stays one printable line."""
+    return "".join(f"\\u{ord(c):04x}" if unicodedata.category(c) in _UNSHOWABLE else c
+                   for c in text)
+
+
 def describe(value: object) -> str:
     """Quote a found value for an error message (strings in quotes, blanks named)."""
     if value is None:
@@ -110,7 +120,14 @@ def describe(value: object) -> str:
     if isinstance(value, str):
         if value.strip() == "":
             return "nothing (blank)"
-        return f'"{value}"'
+        if len(value) > 200:
+            value = value[:200] + "…"
+        # control characters and unpaired surrogates would garble or break the console
+        return f'"{shown(value)}"'
     if isinstance(value, bool):
         return "yes" if value else "no"
+    if isinstance(value, int) and abs(value) > 10**30:
+        return f"a whole number of about {value.bit_length() * 0.30103:.0f} digits"
+    if isinstance(value, (dict, list)):
+        return "a mapping" if isinstance(value, dict) else f"a list of {len(value)} item(s)"
     return repr(value)

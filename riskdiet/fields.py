@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import re
+import unicodedata
 from dataclasses import dataclass
 from typing import Any
 
@@ -20,6 +22,12 @@ INTEGER = "integer"
 TEXT = "text"
 BOOLEAN = "boolean"
 CHOICE = "choice"
+
+NAME_MAX_LENGTH = 80
+"""Longest name of a prey type, group or scenario (MODEL.md section 1, Bounds)."""
+
+MAX_ANIMALS = 1_000_000
+"""Upper bound of animal counts such as ``population`` (MODEL.md section 1, Bounds)."""
 
 _TRUE_WORDS = {"yes", "y", "true", "1"}
 _FALSE_WORDS = {"no", "n", "false", "0"}
@@ -45,6 +53,11 @@ class FieldSpec:
         Allowed words for ``choice`` fields.
     required : bool
         Whether a value must be given (no default).
+    percent : bool
+        Whether a ``%`` sign is accepted (fractions and probabilities only,
+        MODEL.md section 1): ``30 %`` means 0.3.
+    max_length : int, optional
+        Longest text allowed; such a text is a name: printable characters only.
     """
 
     kind: str
@@ -56,6 +69,8 @@ class FieldSpec:
     high_open: bool = False
     choices: tuple[str, ...] = ()
     required: bool = False
+    percent: bool = False
+    max_length: int | None = None
 
     @property
     def numeric(self) -> bool:
@@ -83,6 +98,14 @@ class FieldSpec:
         if hi is not None:
             return f"{noun} {'<' if self.high_open else '≤'} {_fmt(hi)}"
         return noun
+
+    def expected_for(self, value: float) -> str:
+        """:meth:`expected`, with a hint when ``value`` looks like a slip."""
+        text = self.expected()
+        if (self.percent and self.high == 1 and isinstance(value, (int, float))
+                and 2 <= value <= 100):
+            text += f" (for {value:g} %, type {value / 100:g} or {value:g} %)"
+        return text
 
     def in_range(self, value: float) -> bool:
         """Whether a numeric value lies within the bounds."""
@@ -158,7 +181,12 @@ def coerce(spec: FieldSpec, value: Any, where: str) -> tuple[Any, Problem | None
     if spec.kind in (TEXT, CHOICE):
         if isinstance(value, bool) or not isinstance(value, (str, int, float)):
             return None, Problem(where, spec.expected(), describe(value))
+        if isinstance(value, int) and abs(value) > 10**30:
+            return None, Problem(where, spec.expected(), describe(value))
         text = str(value).strip()
+        problem = text_problem(text, where, spec.max_length)
+        if problem:
+            return None, problem
         if spec.kind == CHOICE:
             word = text.lower()
             if word not in spec.choices:
@@ -170,14 +198,20 @@ def coerce(spec: FieldSpec, value: Any, where: str) -> tuple[Any, Problem | None
     if isinstance(value, bool):
         return None, Problem(where, spec.expected(), describe(value))
     if isinstance(value, (int, float)):
-        number = float(value)
+        try:
+            number = float(value)
+        except OverflowError:
+            return None, Problem(where, spec.expected(), describe(value))
     elif isinstance(value, str):
         text = value.strip().replace("\u2212", "-")
         percent = text.endswith("%")
+        if percent and not spec.percent:
+            return None, Problem(where, spec.expected() + " (a % sign is accepted only for "
+                                 "fractions and probabilities)", describe(value))
         try:
             number = float(text.rstrip("%").strip())
         except ValueError:
-            return None, Problem(where, spec.expected(), describe(value))
+            return None, Problem(where, spec.expected(), _found_text(value))
         if percent:
             number /= 100.0
     else:
@@ -189,3 +223,54 @@ def coerce(spec: FieldSpec, value: Any, where: str) -> tuple[Any, Problem | None
             return None, Problem(where, spec.expected(), describe(value))
         return int(number), None
     return number, None
+
+
+_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}( \d{2}:\d{2}(:\d{2})?)?$|^\d{2}:\d{2}:\d{2}$")
+_DECIMAL_COMMA = re.compile(r"^[-+]?\d*,\d+\s*%?$")
+_FORBIDDEN = {"Cc", "Cs", "Co", "Cn", "Zl", "Zp"}
+_MULTILINE = {"\t", "\n", "\r"}
+
+
+def _found_text(value: str) -> str:
+    """Describe a text that is not a number, with the likely slip when there is one."""
+    text = value.strip()
+    if _DECIMAL_COMMA.match(text):
+        return (f"{describe(value)} (a decimal comma? riskdiet reads a decimal point: "
+                f"{text.replace(',', '.')})")
+    if _DATE.match(text):
+        return (f"the date or time {describe(value)}: the spreadsheet converted the entry "
+                "to a date; format the cell as a number (or text) and type the value again")
+    return describe(value)
+
+
+def text_problem(text: str, where: str, max_length: int | None = None) -> Problem | None:
+    """A text riskdiet cannot show faithfully, or a name that is too long.
+
+    Texts may not hold control characters (notes may hold tabs and line
+    breaks), unpaired surrogates or unassigned code points, because they
+    cannot be printed, saved or drawn. A name (``max_length`` given) must be
+    one line of at most ``max_length`` printable characters (MODEL.md
+    section 1, Bounds).
+    """
+    bad = [c for c in text if unicodedata.category(c) in _FORBIDDEN
+           and (max_length is not None or c not in _MULTILINE)]
+    if bad:
+        codes = ", ".join(f"U+{ord(c):04X}" for c in dict.fromkeys(bad))
+        shown = "".join("?" if c in bad else c for c in text)[:60]
+        return Problem(where, "printable text" + (" on one line" if max_length else ""),
+                       f'"{shown}" with the control or invalid character(s) {codes}')
+    if max_length is not None and len(text) > max_length:
+        return Problem(where, f"a name of at most {max_length} characters",
+                       f'{len(text)} characters ("{text[:40]}…")')
+    return None
+
+
+def did_you_mean(word: object, options: list[str] | tuple[str, ...]) -> str:
+    """`` (did you mean "x"?)`` for the closest option to a misspelt word, else ``""``."""
+    import difflib
+
+    if not isinstance(word, str) or not word.strip():
+        return ""
+    lower = {o.lower(): o for o in options}
+    found = difflib.get_close_matches(word.strip().lower(), list(lower), n=1, cutoff=0.6)
+    return f' (did you mean "{lower[found[0]]}"?)' if found else ""

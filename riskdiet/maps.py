@@ -29,12 +29,12 @@ from riskdiet.batch import solve_breeding_batch
 from riskdiet.chain import season_outlook
 from riskdiet.choice import one_step_value, step_values
 from riskdiet.errors import Problem, SolveError, StudyError, describe
-from riskdiet.fields import INTEGER, field_specs
+from riskdiet.fields import INTEGER, did_you_mean, field_specs
 from riskdiet.grid import Grid, attack_probabilities, make_grid, make_grids, take_cells, targets
 from riskdiet.model import BASELINE, Predator, Prey, Study, round_half_up
 from riskdiet.regimes import classify
 from riskdiet.solver import solve_season
-from riskdiet.validation import check_values
+from riskdiet.validation import check_values, size_problem
 
 SHARE = "encounter_share"
 DAYS_PER_YEAR = 365.0
@@ -90,7 +90,8 @@ def parse_target(target: str, study: Study, where: str, numeric_only: bool = Tru
         if prey is None:
             raise StudyError([Problem(where, "a prey name of the study ("
                                       + ", ".join(p.name for p in study.prey) + ")",
-                                      describe(prey_text))])
+                                      describe(prey_text) + did_you_mean(
+                                          prey_text, [p.name for p in study.prey]))])
         field = field.lower()
         if field == SHARE:
             return prey, field
@@ -101,11 +102,12 @@ def parse_target(target: str, study: Study, where: str, numeric_only: bool = Tru
     if field not in specs:
         raise StudyError([Problem(where, f"a {'prey' if prey else 'predator'} field ("
                                   + ", ".join(numeric + ([SHARE] if prey else [])) + ")",
-                                  describe(field))])
+                                  describe(field) + did_you_mean(
+                                      field, numeric + ([SHARE] if prey else [])))])
     if numeric_only and not specs[field].numeric:
         raise StudyError([Problem(where, "a numeric field (" + ", ".join(numeric) + ")",
                                   f'the {specs[field].kind} field "{field}"')])
-    if where.endswith("gradient") and specs[field].kind == INTEGER:
+    if "gradient" in where and specs[field].kind == INTEGER:
         raise StudyError([Problem(where, "a field that can change by a small amount (not a "
                                   "whole-number field)", f'the whole-number field "{field}"')])
     return prey, field
@@ -181,15 +183,22 @@ class MapRequest:
     x: Axis
     y: Axis
     gradient: tuple[str | None, str] | None = None
+    where_x: str = "--x"
+    where_y: str = "--y"
 
 
 def _check_request(study: Study, request: MapRequest) -> None:
     """Every axis value must give valid inputs (checked along both axes and corners)."""
     base_pred, base_prey = study.inputs_for(study.scenario(request.scenario))
     problems: list[Problem] = []
+    wx, wy = request.where_x, request.where_y
     if request.x.target == request.y.target:
-        problems.append(Problem("--y", "a different input from --x", describe(request.y.target)))
-    for axis, where in ((request.x, "--x"), (request.y, "--y")):
+        problems.append(Problem(wy, f"a different input from {wx}", describe(request.y.target)))
+    size = size_problem(base_pred, len(base_prey), f"{wx} and {wy}",
+                        request.x.steps * request.y.steps)
+    if size:
+        problems.append(size)
+    for axis, where in ((request.x, wx), (request.y, wy)):
         if axis.field == SHARE:
             rates = [p.encounters(base_pred) for p in base_prey]
             if sum(rates) == 0:
@@ -220,7 +229,7 @@ def _check_request(study: Study, request: MapRequest) -> None:
             key = (p.where, p.expected)
             if key not in seen:
                 seen.add(key)
-                problems.append(Problem(f"--x/--y: map cell x={x:g}, y={y:g} ({p.where})",
+                problems.append(Problem(f"{wx}/{wy}: map cell x={x:g}, y={y:g} ({p.where})",
                                         p.expected, p.found))
     if problems:
         raise StudyError(problems)
@@ -543,11 +552,40 @@ def request_from_settings(study: Study) -> MapRequest | None:
     s = study.settings
     if not (s.map_x and s.map_y):
         return None
+
+    def where(name: str) -> str:
+        return study.locations.get(f"settings.{name}", f"settings.{name}")
+
+    problems: list[Problem] = []
     scenario = s.map_scenario or BASELINE
-    if scenario not in {sc.name for sc in study.scenarios}:
-        raise StudyError([Problem("settings.map_scenario", "a scenario of the study",
-                                  describe(scenario))])
-    gradient = parse_target(s.map_gradient, study, "settings.map_gradient") \
-        if s.map_gradient else None
-    return MapRequest(scenario, parse_axis(s.map_x, study, "settings.map_x"),
-                      parse_axis(s.map_y, study, "settings.map_y"), gradient)
+    names = [sc.name for sc in study.scenarios]
+    if scenario not in names:
+        problems.append(Problem(where("map_scenario"), "a scenario of the study ("
+                                + ", ".join(names) + ")", describe(scenario)))
+    parsed = []
+    for name, text in (("map_gradient", s.map_gradient), ("map_x", s.map_x),
+                       ("map_y", s.map_y)):
+        try:
+            if name == "map_gradient":
+                parsed.append(parse_target(text, study, where(name)) if text else None)
+            else:
+                parsed.append(parse_axis(text, study, where(name)))
+        except StudyError as exc:
+            problems += exc.problems
+    if problems:
+        raise StudyError(problems, study.source or None)
+    return MapRequest(scenario, parsed[1], parsed[2], parsed[0], where("map_x"),
+                      where("map_y"))
+
+
+def check_settings_map(study: Study) -> None:
+    """Every check a map asked for in the settings will meet, run before any work.
+
+    Raises
+    ------
+    StudyError
+        Each problem at its Settings cell (or JSON path).
+    """
+    request = request_from_settings(study)
+    if request is not None:
+        _check_request(study, request)

@@ -23,10 +23,13 @@ from riskdiet.fields import (
     BOOLEAN,
     CHOICE,
     INTEGER,
+    MAX_ANIMALS,
+    NAME_MAX_LENGTH,
     NUMBER,
     TEXT,
     FieldSpec,
     coerce,
+    did_you_mean,
     field_specs,
     spec_field,
 )
@@ -87,7 +90,7 @@ class Predator:
         2.5, kind=NUMBER, unit="ratio", low=0, low_open=True,
         description="Field cost over basal cost (2.5 is a common-practice guess; use local data).")
     background_mortality: float = spec_field(
-        0.0, kind=NUMBER, unit="1/day", low=0, high=1, high_open=True,
+        0.0, percent=True, kind=NUMBER, unit="1/day", low=0, high=1, high_open=True,
         description="Daily probability of dying of other causes.")
     hunting_ability: float = spec_field(
         1.0, kind=NUMBER, unit="ratio", low=0,
@@ -96,13 +99,13 @@ class Predator:
         kind=NUMBER, unit="km²/day", low=0, low_open=True,
         description="Area searched per day; turns prey density into encounters.")
     injured_capture_factor: float = spec_field(
-        1.0, kind=NUMBER, unit="ratio", low=0, high=1,
+        1.0, percent=True, kind=NUMBER, unit="ratio", low=0, high=1,
         description="Capture success is multiplied by this while injured.")
     injured_extra_cost_mj: float = spec_field(
         0.0, kind=NUMBER, unit="MJ/day", low=0,
         description="Extra daily energy cost while injured.")
     injured_extra_mortality: float = spec_field(
-        0.0, kind=NUMBER, unit="1/day", low=0, high=1, high_open=True,
+        0.0, percent=True, kind=NUMBER, unit="1/day", low=0, high=1, high_open=True,
         description="Extra daily probability of dying while injured.")
     recovery_days: float = spec_field(
         1.0, kind=NUMBER, unit="day", low=1,
@@ -112,26 +115,26 @@ class Predator:
         description="What the predator maximises: reaching breeding condition, "
         "or ending the season alive and in condition.")
     breeding_threshold: float = spec_field(
-        1.0, kind=NUMBER, unit="fraction of R", low=0, high=1, low_open=True,
+        1.0, percent=True, kind=NUMBER, unit="fraction of R", low=0, high=1, low_open=True,
         description="Breeding condition is reached at reserves of this fraction of capacity.")
     season_days: int | None = spec_field(
-        kind=INTEGER, unit="day", low=1,
+        kind=INTEGER, unit="day", low=1, high=3650,
         description="Season length (season currency only).")
     season_reserve_threshold: float = spec_field(
-        0.0, kind=NUMBER, unit="fraction of R", low=0, high=1,
+        0.0, percent=True, kind=NUMBER, unit="fraction of R", low=0, high=1,
         description="Reserves needed at the end of the season (0 = alive is enough).")
     start_reserves: float = spec_field(
-        0.5, kind=NUMBER, unit="fraction of R", low=0, high=1,
+        0.5, percent=True, kind=NUMBER, unit="fraction of R", low=0, high=1,
         description="Reserves of a newly arrived or released animal.")
     reserves_after_breeding: float = spec_field(
-        0.5, kind=NUMBER, unit="fraction of R", low=0, high=1,
+        0.5, percent=True, kind=NUMBER, unit="fraction of R", low=0, high=1,
         description="Reserves right after a breeding event.")
     population: int = spec_field(
-        1, kind=INTEGER, unit="count", low=0,
+        1, kind=INTEGER, unit="count", low=0, high=MAX_ANIMALS,
         description="Predators in the area, for long-run totals (places kept filled: every "
         "death replaced).")
     released_animals: int | None = spec_field(
-        kind=INTEGER, unit="count", low=0, high=1_000_000,
+        kind=INTEGER, unit="count", low=0, high=MAX_ANIMALS,
         description="Animals released on day 0, for the released cohort's numbers "
         "(blank: the population).")
 
@@ -186,9 +189,9 @@ class Predator:
 class Prey:
     """One prey type; MODEL.md section 1."""
 
-    name: str = spec_field(kind=TEXT, unit="text", required=True,
+    name: str = spec_field(kind=TEXT, unit="text", required=True, max_length=NAME_MAX_LENGTH,
                            description="Unique name of the prey type.")
-    group: str = spec_field("wild", kind=TEXT, unit="text",
+    group: str = spec_field("wild", kind=TEXT, unit="text", max_length=NAME_MAX_LENGTH,
                             description="Group for totals, e.g. wild, livestock, protected.")
     density_per_km2: float | None = spec_field(
         kind=NUMBER, unit="1/km²", low=0,
@@ -203,20 +206,20 @@ class Prey:
         0.0, kind=NUMBER, unit="day", low=0,
         description="Extra days one capture occupies (eating, guarding, resting).")
     capture_success: float | None = spec_field(
-        kind=NUMBER, unit="probability", low=0, high=1, required=True,
+        kind=NUMBER, percent=True, unit="probability", low=0, high=1, required=True,
         description="Chance an attack captures the prey, at hunting ability 1.")
     skill_dependent: bool | None = spec_field(
         kind=BOOLEAN, unit="yes/no",
         description="Capture success scales with hunting ability (blank: yes if the prey is "
         "risky in the baseline inputs).")
     injury_chance: float = spec_field(
-        0.0, kind=NUMBER, unit="probability", low=0, high=1,
+        0.0, percent=True, kind=NUMBER, unit="probability", low=0, high=1,
         description="Chance that a failed attack injures the predator.")
     injury_energy_mj: float = spec_field(
         0.0, kind=NUMBER, unit="MJ", low=0,
         description="Energy lost when injured.")
     fatality_chance: float = spec_field(
-        0.0, kind=NUMBER, unit="probability", low=0, high=1, high_open=True,
+        0.0, percent=True, kind=NUMBER, unit="probability", low=0, high=1, high_open=True,
         description="Chance that an attack kills the predator.")
     note: str = spec_field("", kind=TEXT, unit="text",
                            description="Free text: sources of the values, caveats.")
@@ -259,7 +262,9 @@ class Change:
     value : float or str or bool
         New value, factor or increment.
     where : str
-        Location of the change in the input, for messages.
+        Location of the change's value in the input, for messages.
+    where_prey, where_field : str
+        Locations of its ``prey`` and ``field`` entries (default: ``where``).
     """
 
     prey: str | None
@@ -267,6 +272,8 @@ class Change:
     change: str
     value: Any
     where: str = ""
+    where_prey: str = ""
+    where_field: str = ""
 
     def describe(self) -> str:
         target = f"{self.prey}: {self.field}" if self.prey else self.field
@@ -341,6 +348,9 @@ class Study:
         File the study was read from (for messages and provenance).
     source_sha256 : str
         SHA-256 of that file's bytes, hex.
+    locations : dict
+        Where some inputs sit in the file (``settings.map_x`` -> ``Settings!B6
+        (map_x)``), for problems found after reading.
     """
 
     predator: Predator
@@ -352,6 +362,7 @@ class Study:
     notes: dict[str, str] = dataclasses.field(default_factory=dict)
     source: str = ""
     source_sha256: str = ""
+    locations: dict[str, str] = dataclasses.field(default_factory=dict)
 
     @property
     def name(self) -> str:
@@ -402,14 +413,22 @@ def apply_changes(predator: Predator, prey: tuple[Prey, ...], changes: tuple[Cha
         else:
             i = index.get(ch.prey.strip().lower())
             if i is None:
-                problems.append(Problem(ch.where, "the name of a prey type in the study "
-                                        f"({', '.join(p.name for p in prey)})", describe(ch.prey)))
+                names = [p.name for p in prey]
+                problems.append(Problem(ch.where_prey or ch.where, "the name of a prey type in "
+                                        f"the study ({', '.join(names)})",
+                                        describe(ch.prey) + did_you_mean(ch.prey, names)))
                 continue
             spec, current = yspecs.get(ch.field), prey_list[i]
         if spec is None or ch.field == "name":
             allowed = [f for f in (pspecs if ch.prey is None else yspecs) if f != "name"]
-            problems.append(Problem(ch.where, f"a {'predator' if ch.prey is None else 'prey'} "
-                                    f"field ({', '.join(allowed)})", describe(ch.field)))
+            other = yspecs if ch.prey is None else pspecs
+            hint = did_you_mean(ch.field, allowed)
+            if not hint and ch.field in other and ch.field != "name":
+                hint = (" (a prey field: name the prey in the prey column)" if ch.prey is None
+                        else " (a predator field: leave the prey column blank)")
+            problems.append(Problem(ch.where_field or ch.where,
+                                    f"a {'predator' if ch.prey is None else 'prey'} "
+                                    f"field ({', '.join(allowed)})", describe(ch.field) + hint))
             continue
         old = getattr(current, ch.field)
         if ch.change == "set":

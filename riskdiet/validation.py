@@ -9,10 +9,21 @@ location, and returns a :class:`riskdiet.model.Study`.
 
 from __future__ import annotations
 
+import datetime as dt
+import re
 from typing import Any, Protocol
 
 from riskdiet.errors import Notice, Problem, StudyError, describe
-from riskdiet.fields import NUMBER, FieldSpec, coerce, field_specs, is_blank
+from riskdiet.fields import (
+    NAME_MAX_LENGTH,
+    NUMBER,
+    FieldSpec,
+    coerce,
+    did_you_mean,
+    field_specs,
+    is_blank,
+    text_problem,
+)
 from riskdiet.model import (
     BASELINE,
     CHANGE_KINDS,
@@ -76,7 +87,8 @@ def _build_record(cls: type, raw: Any, where: Any, problems: list[Problem],
         name = str(key).strip().lower()
         if name not in specs:
             problems.append(Problem(where(str(key)), f"a {section} field name "
-                                    f"({', '.join(specs)})", describe(key)))
+                                    f"({', '.join(specs)})",
+                                    describe(key) + did_you_mean(key, list(specs))))
             continue
         converted, problem = coerce(specs[name], value, where(name))
         if problem:
@@ -100,12 +112,14 @@ def range_problems(predator: Predator, prey: list[tuple[int, Prey]],
     for name, spec in field_specs(Predator).items():
         value = getattr(predator, name)
         if spec.numeric and value is not None and not spec.in_range(value):
-            problems.append(Problem(where_predator(name), spec.expected(), describe(value)))
+            problems.append(Problem(where_predator(name), spec.expected_for(value),
+                                    describe(value)))
     for i, p in prey:
         for name, spec in field_specs(Prey).items():
             value = getattr(p, name)
             if spec.numeric and value is not None and not spec.in_range(value):
-                problems.append(Problem(where_prey(i, name), spec.expected(), describe(value)))
+                problems.append(Problem(where_prey(i, name), spec.expected_for(value),
+                                        describe(value)))
     return problems
 
 
@@ -144,6 +158,9 @@ def check_values(predator: Predator, prey: tuple[Prey, ...],
                                 "a whole number ≥ 1 for the season currency", "nothing (blank)"))
     if not prey:
         problems.append(Problem(where_prey(0, "name"), "at least one prey type", "none"))
+    size = size_problem(predator, len(prey), where_predator("energy_levels"))
+    if size:
+        problems.append(size)
     seen: dict[str, int] = {}
     for i, p in enumerate(prey):
         if ":" in p.name:
@@ -193,7 +210,49 @@ def check_values(predator: Predator, prey: tuple[Prey, ...],
         if p.fatality_chance > 0.5:
             notices.append(Notice(where_prey(i, "fatality_chance"),
                                   "more than half of all attacks kill the predator"))
+    notices += plausibility_notices(predator, prey, where_predator, where_prey)
     return problems, notices
+
+
+def plausibility_notices(predator: Predator, prey: tuple[Prey, ...], where_predator: Any,
+                         where_prey: Any) -> list[Notice]:
+    """Values within their ranges that are likely slips (issue: plausibility warnings).
+
+    Each notice names its cell: hunting ability above 3, handling above 30 days,
+    daily background mortality above 0.01, density and encounters both given,
+    every capture success 0, no prey able to pay for the days it takes.
+    """
+    notices: list[Notice] = []
+    if predator.hunting_ability > 3:
+        notices.append(Notice(where_predator("hunting_ability"),
+                              f"hunting ability {predator.hunting_ability:g} is over three "
+                              "times typical (1 = typical); is this intended?"))
+    mu = predator.background_mortality
+    if mu > 0.01:
+        yearly = 1 - (1 - mu) ** 365
+        notices.append(Notice(where_predator("background_mortality"),
+                              f"a daily mortality of {mu:g} kills {100 * yearly:.0f} % of the "
+                              "animals within a year: an annual figure typed as daily? (a yearly "
+                              "mortality m is a daily 1 − (1 − m)^(1/365))"))
+    for i, p in enumerate(prey):
+        if p.handling_days > 30:
+            notices.append(Notice(where_prey(i, "handling_days"),
+                                  f"{p.handling_days:g} days to handle one capture: hours typed "
+                                  "as days? (the unit is days)"))
+        if p.density_per_km2 is not None and p.encounters_per_day is not None:
+            notices.append(Notice(where_prey(i, "density_per_km2"),
+                                  "both density_per_km2 and encounters_per_day are given: "
+                                  "encounters_per_day is used and the density is ignored"))
+    if prey and all(p.capture_success == 0 for p in prey):
+        notices.append(Notice(where_prey(0, "capture_success"),
+                              "every prey's capture success is 0: no attack can ever succeed"))
+    cost = predator.effective_daily_cost_mj
+    if prey and not any(p.energy_mj > cost * (1 + p.handling_days) for p in prey):
+        notices.append(Notice(where_prey(0, "energy_mj"),
+                              f"no prey pays for its day: every capture yields at most the "
+                              f"daily cost ({cost:.3g} MJ) times the days it takes "
+                              "(1 + handling_days), so the predator can only lose reserves"))
+    return notices
 
 
 def build_study(raw: Any, locator: Locator | None = None, source: str = "") -> Study:
@@ -271,11 +330,94 @@ def build_study(raw: Any, locator: Locator | None = None, source: str = "") -> S
                 p2, y2, lambda f, sc=sc: _scenario_where(sc, None, f),
                 lambda i, f, sc=sc, y2=y2: _scenario_where(sc, y2[i].name, f))
             problems.extend(found)
+    problems += _settings_problems(settings, loc)
     if problems:
         raise StudyError(problems, source or None)
+    notices += _scale_notices(scenarios)
+    locations = {f"settings.{f}": loc.settings(f) for f in field_specs(Settings)}
     return Study(predator=predator, prey=tuple(prey), scenarios=tuple(scenarios),
                  uncertainty=tuple(uncertainty), settings=settings, notices=tuple(notices),
-                 notes=notes, source=source)
+                 notes=notes, source=source, locations=locations)
+
+
+_LOCAL_DATE = re.compile(r"^\s*(\d{1,2})[./-](\d{1,2})[./-](\d{2,4})\s*$")
+
+
+def _settings_problems(settings: Settings, loc: Locator) -> list[Problem]:
+    """Settings every command relies on: the report date, both axes of a map."""
+    problems: list[Problem] = []
+    date = settings.report_date
+    if date is not None:
+        try:
+            ok = len(date) == 10 and dt.date.fromisoformat(date) is not None
+        except ValueError:
+            ok = False
+        if not ok:
+            found = describe(date)
+            m = _LOCAL_DATE.match(date)
+            if m:
+                day, month, year = m.groups()
+                year = year if len(year) == 4 else "20" + year
+                found += (f" (a local date style: write {year}-{int(month):02d}-{int(day):02d} "
+                          f"if the day comes first, {year}-{int(day):02d}-{int(month):02d} if "
+                          "the month does)")
+            problems.append(Problem(loc.settings("report_date"),
+                                    "a date written YYYY-MM-DD, e.g. 2026-03-31", found))
+    for given, missing in (("map_x", "map_y"), ("map_y", "map_x")):
+        if getattr(settings, given) and not getattr(settings, missing):
+            problems.append(Problem(loc.settings(missing),
+                                    f"{missing} as well: a map needs both axes (or clear "
+                                    f"{given})", "nothing (blank)"))
+    if not (settings.map_x or settings.map_y):
+        for name in ("map_scenario", "map_gradient"):
+            if getattr(settings, name):
+                problems.append(Problem(loc.settings(name), f"map_x and map_y with {name} "
+                                        "(or clear it)", "no map axes"))
+    return problems
+
+
+def _scale_notices(scenarios: list[Scenario]) -> list[Notice]:
+    """Scale factors of 10 or more: a percentage typed as a factor?"""
+    notices = []
+    for sc in scenarios:
+        for ch in sc.changes:
+            if ch.change != "scale":
+                continue
+            factor, problem = coerce(FieldSpec(NUMBER, "", ""), ch.value, ch.where)
+            if problem is None and factor is not None and factor >= 10:
+                notices.append(Notice(ch.where, f"scenario {sc.name!r} multiplies {ch.field} "
+                                      f"by {factor:g}: meant {factor:g} %? (then write "
+                                      f"{factor / 100:g})"))
+    return notices
+
+
+ARRAY_LIMIT_BYTES = 2 * 1024**3
+"""Largest working set riskdiet will allocate (MODEL.md section 1, Bounds)."""
+
+
+def array_bytes(predator: Predator, prey_count: int, cells: int = 1) -> float:
+    """Estimated memory of a solve: 8 bytes x 2 conditions x levels x days x prey x cells.
+
+    Days are the season length in the season currency and 1 in the breeding
+    currency (a stationary solve); ``cells`` counts the cells of a map.
+    """
+    days = (predator.season_days or 1) if predator.currency == "season" else 1
+    return 8.0 * 2 * (predator.energy_levels + 1) * days * (prey_count + 1) * cells
+
+
+def size_problem(predator: Predator, prey_count: int, where: str, cells: int = 1
+                 ) -> Problem | None:
+    """A located problem when a solve would need more than 2 GiB of arrays."""
+    need = array_bytes(predator, prey_count, cells)
+    if need <= ARRAY_LIMIT_BYTES:
+        return None
+    days = (predator.season_days or 1) if predator.currency == "season" else 1
+    shape = f"{predator.energy_levels} levels × {days} day(s) × {prey_count} prey"
+    if cells > 1:
+        shape += f" × {cells} map cells"
+    return Problem(where, "a study whose arrays fit in 2 GiB (fewer energy_levels, a shorter "
+                   "season, fewer prey or map cells)",
+                   f"{shape}, about {need / 1024**3:.1f} GiB")
 
 
 def _scenario_where(sc: Scenario, prey: str | None, field: str) -> str:
@@ -302,6 +444,10 @@ def _build_scenarios(raw: Any, loc: Locator, problems: list[Problem]) -> list[Sc
             problems.append(Problem(loc.scenario(si, "name"), "a scenario name", describe(name)))
             continue
         name = name.strip()
+        problem = text_problem(name, loc.scenario(si, "name"), NAME_MAX_LENGTH)
+        if problem:
+            problems.append(problem)
+            continue
         if name.lower() in {n.lower() for n in names}:
             problems.append(Problem(loc.scenario(si, "name"),
                                     "a unique scenario name (baseline is implicit)"
@@ -341,7 +487,7 @@ def _build_scenarios(raw: Any, loc: Locator, problems: list[Problem]) -> list[Sc
                 ok = False
             if ok:
                 changes.append(Change(prey, field.strip().lower(), kind, ch["value"],
-                                      where("value")))
+                                      where("value"), where("prey"), where("field")))
         scenarios.append(Scenario(name, tuple(changes), str(item.get("note") or "")))
     return scenarios
 
@@ -352,9 +498,8 @@ def _build_uncertainty(raw: Any, loc: Locator, problems: list[Problem],
     if not isinstance(raw, list):
         problems.append(Problem("uncertainty", "a list of ranges", describe(raw)))
         return out
-    names = {p.name.strip().lower() for p in prey}
+    names = {p.name.strip().lower() for p in prey if p.name}
     pspecs, yspecs = field_specs(Predator), field_specs(Prey)
-    num = FieldSpec(NUMBER, "", "")
     for i, item in enumerate(raw):
         where = lambda key, i=i: loc.uncertainty(i, key)
         if not isinstance(item, dict):
@@ -365,13 +510,17 @@ def _build_uncertainty(raw: Any, loc: Locator, problems: list[Problem],
         target = None if is_blank(target) else str(target).strip()
         if target is not None and target.lower() not in names:
             problems.append(Problem(where("prey"), "the name of a prey type in the study",
-                                    describe(target)))
+                                    describe(target) + did_you_mean(
+                                        target, [p.name for p in prey if p.name])))
         field = str(item.get("field") or "").strip().lower()
         specs = pspecs if target is None else yspecs
         if field not in specs or not specs[field].numeric:
             numeric = [f for f, s in specs.items() if s.numeric]
             problems.append(Problem(where("field"), "a numeric field (" + ", ".join(numeric) + ")",
-                                    describe(item.get("field"))))
+                                    describe(item.get("field"))
+                                    + did_you_mean(item.get("field"), numeric)))
+        # a range takes a % sign where its field does
+        num = FieldSpec(NUMBER, "", "", percent=field in specs and specs[field].percent)
         low, p1 = coerce(num, item.get("low"), where("low"))
         high, p2 = coerce(num, item.get("high"), where("high"))
         mode, p3 = coerce(num, item.get("mode"), where("mode"))

@@ -14,7 +14,7 @@ import pytest
 from riskdiet.fields import BOOLEAN, INTEGER, NUMBER, FieldSpec, coerce, field_specs
 from riskdiet.model import Predator, Prey
 
-PROBABILITY = FieldSpec(NUMBER, "probability", "", low=0, high=1)
+PROBABILITY = FieldSpec(NUMBER, "probability", "", low=0, high=1, percent=True)
 
 
 @pytest.mark.parametrize(("raw", "value"), [

@@ -66,9 +66,9 @@ def test_scale_of_density_derived_field():
 
 @pytest.mark.parametrize("change, where, fragment", [
     ({"prey": "snow leopard", "field": "energy_mj", "change": "set", "value": 1},
-     "scenarios[0].changes[0].value", "name of a prey type"),
+     "scenarios[0].changes[0].prey", "name of a prey type"),
     ({"prey": None, "field": "wingspan_m", "change": "set", "value": 1},
-     "scenarios[0].changes[0].value", "predator field"),
+     "scenarios[0].changes[0].field", "predator field"),
     ({"prey": "wild boar", "field": "group", "change": "scale", "value": 2},
      "scenarios[0].changes[0].value", "non-numeric"),
     ({"prey": "wild boar", "field": "capture_success", "change": "add", "value": 0.95},

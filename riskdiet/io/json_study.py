@@ -21,7 +21,11 @@ def read_json_study(path: str | Path) -> Study:
     ``prey[2].capture_success``.
     """
     path = Path(path)
-    data = path.read_bytes()
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise StudyError([Problem(str(path), "a file riskdiet may read",
+                                  exc.strerror or type(exc).__name__)]) from None
     try:
         raw = json.loads(data.decode("utf-8-sig"))
     except UnicodeDecodeError:
@@ -30,6 +34,12 @@ def read_json_study(path: str | Path) -> Study:
     except json.JSONDecodeError as exc:
         raise StudyError([Problem(f"{path} line {exc.lineno} column {exc.colno}",
                                   "valid JSON", exc.msg)]) from None
+    except RecursionError:
+        raise StudyError([Problem(str(path), "a JSON study (records nested a few levels "
+                                  "deep)", "values nested too deeply to read")]) from None
+    except ValueError as exc:  # e.g. an integer of more than 4300 digits
+        raise StudyError([Problem(str(path), "valid JSON with numbers of ordinary size",
+                                  str(exc).split(";")[0])]) from None
     study = build_study(raw, source=str(path))
     return dataclasses.replace(study, source_sha256=file_sha256(path))
 

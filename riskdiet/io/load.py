@@ -50,12 +50,15 @@ def load_study(path: str | Path) -> Study:
     if suffix in _MISTAKES:
         raise StudyError([Problem(name, f"{ACCEPTED}; save the file as .xlsx in your "
                                   "spreadsheet program", _MISTAKES[suffix])])
-    if suffix == ".json":
-        from riskdiet.io.json_study import read_json_study
+    if suffix in (".json", ".xlsx"):
+        if suffix == ".json":
+            from riskdiet.io.json_study import read_json_study as read
+        else:
+            from riskdiet.io.workbook import read_workbook_study as read
+        study = read(path)
+        from riskdiet.maps import check_settings_map
 
-        return read_json_study(path)
-    if suffix == ".xlsx":
-        from riskdiet.io.workbook import read_workbook_study
-
-        return read_workbook_study(path)
+        # every command runs the same checks, so `check` catches what `solve` would refuse
+        check_settings_map(study)
+        return study
     raise StudyError([Problem(name, ACCEPTED, f'a file ending in "{suffix or "(nothing)"}"')])

@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 from riskdiet.analysis import ScenarioResult, StudyResult
 from riskdiet.compare import comparison_table
 from riskdiet.fields import field_specs
-from riskdiet.model import Predator, Prey
+from riskdiet.model import Predator, Prey, Study
 
 
 @dataclass(frozen=True)
@@ -270,14 +270,30 @@ def _provenance(result: StudyResult, date: str) -> Table:
                  ["scenario", "record", "field [unit]", "value"], rows)
 
 
+def scenario_sheet_names(scenario_names: list[str]) -> list[str]:
+    """Sheet names of the per-scenario tables, unique and valid."""
+    taken = {"summary", "comparison", "cohort", "kills", "predators", "classic", "map",
+             "grid check", "provenance"}
+    return [sheet_name(name, taken) for name in scenario_names]
+
+
+def table_names(study: Study) -> list[str]:
+    """Names of the tables :func:`results_tables` will give for a study, known before solving."""
+    names = ["Summary", "Comparison", "Cohort", "Kills", "Predators"]
+    names += scenario_sheet_names([s.name for s in study.scenarios])
+    names.append("Classic")
+    if study.settings.map_x and study.settings.map_y:
+        names.append("Map")
+    return [*names, "Grid check", "Provenance"]
+
+
 def results_tables(result: StudyResult, date: str | None = None) -> list[Table]:
     """Every table of the results workbook, in sheet order."""
     date = date or result.study.settings.report_date or _dt.date.today().isoformat()
-    taken = {"summary", "comparison", "cohort", "kills", "predators", "classic", "map",
-             "grid check", "provenance"}
     tables = [_summary(result, date), _comparison(result), _cohort(result), _kills(result),
               _predators(result)]
-    tables += [_scenario(s, sheet_name(s.name, taken)) for s in result.scenarios]
+    sheets = scenario_sheet_names([s.name for s in result.scenarios])
+    tables += [_scenario(s, name) for s, name in zip(result.scenarios, sheets, strict=True)]
     tables += [_classic(result)]
     if result.map is not None:
         tables.append(_map(result))

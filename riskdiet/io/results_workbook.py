@@ -6,8 +6,9 @@ import csv
 from pathlib import Path
 
 from riskdiet.analysis import StudyResult
-from riskdiet.io.atomic import check_writable, write_atomic
-from riskdiet.io.results_tables import Table, results_tables
+from riskdiet.io.atomic import OutputSet, write_atomic
+from riskdiet.io.results_tables import Table, results_tables, table_names
+from riskdiet.model import Study
 
 
 def _write_sheet(ws, table: Table) -> None:
@@ -45,12 +46,13 @@ def _cell(value):
 
 
 def write_results_workbook(result: StudyResult, path: str | Path, force: bool = False,
-                           date: str | None = None) -> Path:
+                           date: str | None = None, outputs: OutputSet | None = None) -> Path:
     """Write the results workbook (summary, comparison, kills, scenarios, provenance).
 
     Numbers are stored as numbers with number formats; headers carry units and
-    are frozen. The file is written to a temporary name and renamed, and an
-    existing file is replaced only with ``force``; the input is never touched.
+    are frozen. The file is written to a temporary name and renamed (when
+    ``outputs`` is given: staged in that set, renamed when it is committed), and
+    an existing file is replaced only with ``force``; the input is never touched.
     """
     from openpyxl import Workbook
 
@@ -64,27 +66,56 @@ def write_results_workbook(result: StudyResult, path: str | Path, force: bool = 
             _write_sheet(wb.create_sheet(table.name), table)
         wb.save(tmp)
 
-    return write_atomic(Path(path), write, force, source)
+    return write_atomic(Path(path), write, force, source, outputs)
+
+
+def csv_paths(study: Study, folder: str | Path) -> list[Path]:
+    """The CSV files :func:`write_results_csv` writes for a study, one per table.
+
+    File names are the table names made safe for every file system, and unique
+    ignoring case: ``deer small`` and ``deer_small`` get ``deer_small.csv`` and
+    ``deer_small-2.csv``, never one file for two tables.
+    """
+    folder = Path(folder)
+    taken: set[str] = set()
+    paths = []
+    for name in table_names(study):
+        base = _slug(name) or "table"
+        stem, i = base, 2
+        while stem.lower() in taken:
+            stem, i = f"{base}-{i}", i + 1
+        taken.add(stem.lower())
+        paths.append(folder / f"{stem}.csv")
+    return paths
 
 
 def write_results_csv(result: StudyResult, folder: str | Path, force: bool = False,
-                      date: str | None = None) -> list[Path]:
-    """Write the same tables as CSV files (UTF-8, one header row) into a folder."""
-    folder = Path(folder)
+                      date: str | None = None, outputs: OutputSet | None = None) -> list[Path]:
+    """Write the same tables as CSV files (UTF-8, one header row) into a folder.
+
+    All files are written together or not at all (see :class:`OutputSet`).
+    """
     tables = results_tables(result, date)
-    paths = [folder / f"{_slug(t.name)}.csv" for t in tables]
+    paths = csv_paths(result.study, folder)
     source = (Path(result.study.source),) if result.study.source else ()
-    for p in paths:
-        check_writable(p, force, source)
-    for table, p in zip(tables, paths, strict=True):
-        def write(tmp: Path, table: Table = table) -> None:
-            with open(tmp, "w", newline="", encoding="utf-8") as fh:
-                out = csv.writer(fh)
-                out.writerow(table.header)
-                for row in table.rows:
-                    out.writerow(["" if v is None else v for v in row])
-        write_atomic(p, write, force, source)
-    return paths
+    own = outputs is None
+    outputs = outputs or OutputSet(force, source)
+    try:
+        for p in paths:
+            if p not in outputs.planned:
+                outputs.plan(p)
+        for table, p in zip(tables, paths, strict=True):
+            def write(tmp: Path, table: Table = table) -> None:
+                with open(tmp, "w", newline="", encoding="utf-8") as fh:
+                    out = csv.writer(fh)
+                    out.writerow(table.header)
+                    for row in table.rows:
+                        out.writerow(["" if v is None else v for v in row])
+            outputs.stage(p, write)
+        return outputs.commit() if own else paths
+    finally:
+        if own:
+            outputs.discard()
 
 
 def _slug(name: str) -> str:

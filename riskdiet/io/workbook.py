@@ -282,6 +282,10 @@ def _open(data: bytes, source: str) -> tuple[Any, dict[str, dict[tuple[int, int]
                     for cell in row:
                         if getattr(cell, "data_type", None) == "f":
                             cells[(cell.row, cell.column)] = str(cell.value)
+                if cells:
+                    # a formula whose saved result is the empty text reads as a blank cell
+                    for key in _empty_text_results(data, getattr(ws, "_worksheet_path", "")):
+                        cells.pop(key, None)
         finally:
             formula_book.close()
     except Exception:  # any failure of the parser means "not a workbook we can read"
@@ -291,12 +295,47 @@ def _open(data: bytes, source: str) -> tuple[Any, dict[str, dict[tuple[int, int]
     return values, formulas
 
 
+def _empty_text_results(data: bytes, member: str) -> set[tuple[int, int]]:
+    """Formula cells saved with a text result that is empty (``=IF(A1="","",…)``).
+
+    Spreadsheet programs store such a result as ``<c t="str"><f>…</f><v></v></c>``;
+    a formula that no program has calculated has no ``t="str"`` (openpyxl) or no
+    ``<v>`` at all, and keeps the "no saved result" message.
+    """
+    import zipfile
+    from xml.etree.ElementTree import iterparse
+
+    from openpyxl.utils.cell import column_index_from_string, coordinate_from_string
+
+    ns = "{http://schemas.openxmlformats.org/spreadsheetml/2006/main}"
+    found: set[tuple[int, int]] = set()
+    try:
+        archive = zipfile.ZipFile(io.BytesIO(data))
+        fh = archive.open(member)
+    except (KeyError, OSError, zipfile.BadZipFile):
+        return found
+    with archive, fh:
+        for _, element in iterparse(fh):
+            if element.tag != f"{ns}c":
+                continue
+            if (element.get("t") == "str" and element.get("r")
+                    and element.find(f"{ns}f") is not None
+                    and (v := element.find(f"{ns}v")) is not None and not v.text):
+                letters, row = coordinate_from_string(element.get("r"))
+                found.add((row, column_index_from_string(letters)))
+            element.clear()
+    return found
+
+
 def _what_is(data: bytes) -> str:
     """A plain guess at what a file that failed to open really is."""
     if not data:
         return "an empty file"
     if data.startswith(b"\xd0\xcf\x11\xe0"):
         return "an old-style .xls file, or a password-protected workbook"
+    if data.startswith(b"PK") and b"application/vnd.oasis.opendocument.spreadsheet" in data[:200]:
+        return ("an OpenDocument spreadsheet (.ods) renamed .xlsx: open it in your spreadsheet "
+                "program and save it with File > Save As, type Excel 2007-365 (.xlsx)")
     if data.startswith(b"PK"):
         return "a damaged or incomplete workbook, or a zip archive of other files"
     if data.startswith(b"%PDF"):

@@ -401,7 +401,7 @@ def _creation_date(date: str) -> Iterator[None]:
 
 def write_brief(result: StudyResult, path: str | Path, paper: str = "a4",
                 date: str | None = None, force: bool = False,
-                figures_dir: str | Path | None = None) -> list[Path]:
+                figures_dir: str | Path | None = None, outputs=None) -> list[Path]:
     """Write the brief (and, optionally, its figures) to disk.
 
     The PDF is written to a temporary file beside ``path`` and renamed into
@@ -420,6 +420,9 @@ def write_brief(result: StudyResult, path: str | Path, paper: str = "a4",
         Replace existing files.
     figures_dir : str or Path, optional
         Also write every figure as PNG (300 dpi) and SVG into this folder.
+    outputs : riskdiet.io.atomic.OutputSet, optional
+        Stage the files in this set (the caller commits it); by default the
+        PDF and figures are renamed into place together at the end.
 
     Returns
     -------
@@ -433,19 +436,27 @@ def write_brief(result: StudyResult, path: str | Path, paper: str = "a4",
     StudyError
         Invalid paper or date.
     """
-    from riskdiet.io.atomic import check_writable, write_atomic
+    from riskdiet.io.atomic import OutputSet
 
     path = Path(path)
     inputs = (Path(result.study.source),) if result.study.source else ()
-    check_writable(path, force, inputs)
-    plan = BriefPlan(result, paper, date)
-    if figures_dir is not None:
-        for f in plan.figures:
-            for suffix in (".png", ".svg"):
-                check_writable(Path(figures_dir) / f"{f.key}{suffix}", force)
-    data, _ = _build(plan)
-    written = [write_atomic(path, lambda tmp: tmp.write_bytes(data), force, inputs)]
-    if figures_dir is not None:
-        written += figs.write_figures(plan.figures, Path(figures_dir), force)
-    return written
-
+    own = outputs is None
+    outputs = outputs or OutputSet(force, inputs)
+    try:
+        if path not in outputs.planned:
+            outputs.plan(path)
+        plan = BriefPlan(result, paper, date)
+        if figures_dir is not None:
+            for f in plan.figures:
+                for suffix in (".png", ".svg"):
+                    target = Path(figures_dir) / f"{f.key}{suffix}"
+                    if target not in outputs.planned:
+                        outputs.plan(target)
+        data, _ = _build(plan)
+        written = [outputs.stage(path, lambda tmp: tmp.write_bytes(data))]
+        if figures_dir is not None:
+            written += figs.write_figures(plan.figures, Path(figures_dir), force, outputs)
+        return outputs.commit() if own else written
+    finally:
+        if own:
+            outputs.discard()

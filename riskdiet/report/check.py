@@ -139,11 +139,32 @@ def settings_section(study: Study) -> str:
     return "\n".join(["Settings", table(["field", "value"], rows)])
 
 
+def font_warnings(study: Study) -> list[str]:
+    """Texts holding characters the brief's fonts cannot draw (they would show as boxes)."""
+    from riskdiet.report.fonts import undrawable
+
+    texts = [("study_name", study.settings.study_name), ("description",
+                                                         study.settings.description)]
+    texts += [(f"prey {p.name!r} (name, group, note)", " ".join([p.name, p.group, p.note]))
+              for p in study.prey]
+    texts += [(f"scenario {sc.name!r} (name, note)", f"{sc.name} {sc.note}")
+              for sc in study.scenarios]
+    texts += [(f"note of {k}", v) for k, v in study.notes.items()]
+    out = []
+    for where, text in texts:
+        missing = undrawable(text or "")
+        if missing:
+            chars = " ".join(f"{c} (U+{ord(c):04X})" for c in missing[:8])
+            out.append(f"{where}: the brief's font cannot draw {chars}"
+                       f"{' …' if len(missing) > 8 else ''}; they will show as boxes in the PDF")
+    return out
+
+
 def notices_section(study: Study) -> str:
-    if not study.notices:
+    lines = [str(n) for n in study.notices] + font_warnings(study)
+    if not lines:
         return "Warnings: none"
-    return "\n".join([f"Warnings ({len(study.notices)})",
-                      *(f"  {n}" for n in study.notices)])
+    return "\n".join([f"Warnings ({len(lines)})", *(f"  {n}" for n in lines)])
 
 
 def check_text(study: Study) -> str:
@@ -164,7 +185,7 @@ def check_text(study: Study) -> str:
             + (f"  SHA-256 {study.source_sha256}" if study.source_sha256 else ""),
             f"{len(study.prey)} prey types, {len(study.scenarios)} scenarios (baseline "
             f"included), {len(study.uncertainty)} uncertainty ranges, "
-            f"{len(study.notices)} warning(s)."]
+            f"{len(study.notices) + len(font_warnings(study))} warning(s)."]
     sections = [
         "\n".join(head), predator_section(study), prey_section(study), scenario_section(study),
         uncertainty_section(study), settings_section(study), notices_section(study),

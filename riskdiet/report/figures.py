@@ -402,13 +402,19 @@ def season_figure(result: StudyResult) -> object | None:
     return fig
 
 
+def decision_figure_keys(study) -> list[str]:
+    """File stems of the decision figures, one per scenario (known before solving)."""
+    return [f"{i:02d}-decisions-{slug(s.name)}" for i, s in enumerate(study.scenarios, start=1)]
+
+
 def brief_figures(result: StudyResult) -> list[BriefFigure]:
     """Every figure of the brief, in the order the brief shows them."""
     out = []
-    for i, s in enumerate(result.scenarios, start=1):
+    keys = decision_figure_keys(result.study)
+    for key, s in zip(keys, result.scenarios, strict=True):
         day = ", policy of day 0 of the season" if s.currency == "season" else ""
         out.append(BriefFigure(
-            f"{i:02d}-decisions-{slug(s.name)}",
+            key,
             f"Scenario “{s.name}”{day}. Top: the reserves at which each prey type is worth "
             "attacking when met, for a healthy and an injured animal. Bottom: the "
             f"{_what(s)} from each level of reserves.",
@@ -453,18 +459,20 @@ def svg_bytes(figure) -> bytes:
     return buffer.getvalue()
 
 
-def write_figures(figures: list[BriefFigure], folder: Path, force: bool = False) -> list[Path]:
+def write_figures(figures: list[BriefFigure], folder: Path, force: bool = False,
+                  outputs=None) -> list[Path]:
     """Write every figure as PNG (:data:`DPI_EXPORT` dpi) and SVG into a folder.
 
     Refuses (before writing anything) when a file exists and ``force`` is
-    False; each file is written atomically.
+    False; the files are written together or not at all (staged in
+    ``outputs``, an :class:`riskdiet.io.atomic.OutputSet`, when given).
 
     Raises
     ------
     OutputExistsError
         A file exists and ``force`` is False.
     """
-    from riskdiet.io.atomic import check_writable, write_atomic
+    from riskdiet.io.atomic import OutputSet
 
     folder = Path(folder)
     targets = []
@@ -472,10 +480,16 @@ def write_figures(figures: list[BriefFigure], folder: Path, force: bool = False)
         for suffix, render in ((".png", lambda fig: png_bytes(fig, DPI_EXPORT)),
                                (".svg", svg_bytes)):
             targets.append((folder / f"{f.key}{suffix}", render, f.figure))
-    for path, _, _ in targets:
-        check_writable(path, force)
-    written = []
-    for path, render, fig in targets:
-        data = render(fig)
-        written.append(write_atomic(path, lambda tmp, data=data: tmp.write_bytes(data), force))
-    return written
+    own = outputs is None
+    outputs = outputs or OutputSet(force)
+    try:
+        for path, _, _ in targets:
+            if path not in outputs.planned:
+                outputs.plan(path)
+        for path, render, fig in targets:
+            data = render(fig)
+            outputs.stage(path, lambda tmp, data=data: tmp.write_bytes(data))
+        return outputs.commit() if own else [path for path, _, _ in targets]
+    finally:
+        if own:
+            outputs.discard()

@@ -82,3 +82,31 @@ def register_fonts() -> FontSet:
     registerFontFamily(SANS, normal=SANS, bold=SANS_BOLD, italic=SANS_ITALIC,
                        boldItalic=SANS_BOLD_ITALIC)
     return FontSet(SANS, SANS_BOLD, SANS_ITALIC, SANS_BOLD_ITALIC, MONO, True)
+
+
+def undrawable(text: str) -> list[str]:
+    """Characters of ``text`` the brief's regular font has no glyph for (shown as boxes).
+
+    Reads the character map of DejaVu Sans (the brief's text font); with the
+    fallback fonts, characters outside Latin-1 count as undrawable.
+    """
+    cmap = _character_map()
+    chars = dict.fromkeys(c for c in text if not c.isspace())
+    if cmap is None:
+        return [c for c in chars if ord(c) > 0xFF]
+    return [c for c in chars if ord(c) not in cmap]
+
+
+_CMAP: list = []
+
+
+def _character_map() -> set[int] | None:
+    if not _CMAP:
+        path = font_folder() / _FILES[SANS]
+        if not path.is_file():
+            _CMAP.append(None)
+        else:
+            from reportlab.pdfbase.ttfonts import TTFontFile
+
+            _CMAP.append(set(TTFontFile(str(path)).charToGlyph))
+    return _CMAP[0]

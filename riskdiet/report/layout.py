@@ -189,7 +189,12 @@ def column_widths(rows: list[list[str]], columns: list[Column], styles: Styles,
     if sum(minimum) > width + 1e-6:
         if strict:
             return None
-        return [m * width / sum(minimum) for m in minimum]
+        # one very long word (a pasted link, text without spaces) must not squeeze the other
+        # columns to nothing: no column's minimum counts for more than its fair share
+        fair = width / len(minimum)
+        capped = [min(m, max(fair, (c.max_share or 0) * width))
+                  for m, c in zip(minimum, columns, strict=True)]
+        return [m * width / sum(capped) for m in capped]
     if sum(natural) <= width:
         return natural
     # body cells unwrapped first, headers wrap; if even that is too wide, short columns

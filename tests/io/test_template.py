@@ -136,7 +136,7 @@ def test_template_validations_and_frozen_headers(template):
     predator = validations_at(wb["Predator"])
     rows = {wb["Predator"].cell(r, 1).value: r for r in range(2, wb["Predator"].max_row + 1)}
     assert predator[f"B{rows['energy_levels']}"] == ("whole", "between", "10", "2000")
-    assert predator[f"B{rows['population']}"] == ("whole", "greaterThanOrEqual", "0", None)
+    assert predator[f"B{rows['population']}"] == ("whole", "between", "0", "1000000")
     assert predator[f"B{rows['currency']}"] == ("list", None, '"breeding,season"', None)
     assert predator[f"B{rows['start_reserves']}"] == ("decimal", "between", "0", "1")
     assert validations_at(wb["Scenarios"])["D2"] == ("list", None, '"set,scale,add"', None)
