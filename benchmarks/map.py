@@ -4,12 +4,12 @@ Times a SIZE x SIZE map (default 200 x 200 = 40,000 cells) of an invented,
 illustrative three-prey study (derived from the demo: breeding currency,
 breeding_threshold 1, 100 energy levels, injuries on), solved
 
-* inline (one process, :func:`riskdiet.maps.make_map` without an executor), and
+* inline (one process, :func:`riskdiet.analysis.maps.make_map` without an executor), and
 * with two worker processes (``concurrent.futures.ProcessPoolExecutor(2)``,
   4 bands of rows, as `riskdiet map --workers 2` uses),
 
 and compares both with the plain approach of solving every cell on its own
-(:func:`riskdiet.solver.solve_grid` on :func:`riskdiet.grid.make_grid`). That
+(:func:`riskdiet.core.solver.solve_grid` on :func:`riskdiet.core.grid.make_grid`). That
 loop over all cells takes many minutes, so it is timed on a fixed random
 sample of cells and extrapolated (labelled as such). The sampled cells' results
 are compared with the map's: fitness, marginal value of hunting ability and
@@ -38,11 +38,11 @@ from pathlib import Path
 
 import numpy as np
 
-from riskdiet.grid import make_grid
-from riskdiet.maps import MapRequest, cell_inputs, make_map, parse_axis
+from riskdiet.analysis.maps import MapRequest, cell_inputs, make_map, parse_axis
+from riskdiet.analysis.regimes import classify
+from riskdiet.core.grid import make_grid
+from riskdiet.core.solver import solve_grid
 from riskdiet.model import BASELINE
-from riskdiet.regimes import classify
-from riskdiet.solver import solve_grid
 from riskdiet.validation import build_study
 
 DEMO = Path(__file__).resolve().parent.parent / "examples" / "harrow-vale.json"

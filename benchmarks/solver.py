@@ -20,9 +20,9 @@ import time
 
 import numpy as np
 
-from riskdiet import solver
-from riskdiet.grid import attack_probabilities, make_grid, rank_attacks, targets
-from riskdiet.solver import solve_grid, step_values
+from riskdiet.core import solver
+from riskdiet.core.grid import attack_probabilities, make_grid, rank_attacks, targets
+from riskdiet.core.solver import solve_grid, step_values
 from riskdiet.validation import build_study
 
 TOLERANCE = 1e-10

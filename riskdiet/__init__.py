@@ -14,10 +14,10 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-__version__ = "0.1.0"
+from riskdiet.version import __version__
 
 if TYPE_CHECKING:  # pragma: no cover
-    from riskdiet.analysis import StudyResult
+    from riskdiet.analysis.results import StudyResult
     from riskdiet.model import Study
 
 
@@ -30,7 +30,7 @@ def load_study(path) -> Study:
 
 def solve(study: Study, executor=None) -> StudyResult:
     """Solve every scenario of a study; see :func:`riskdiet.analysis.solve`."""
-    from riskdiet.analysis import solve as _solve
+    from riskdiet.analysis.study import solve as _solve
 
     return _solve(study, executor)
 

@@ -127,7 +127,7 @@ def _fail(exc: RiskdietError) -> typer.Exit:
 
 def _solved(path: Path):
     """Load and solve a study, turning library errors into exit code 2."""
-    from riskdiet.analysis import solve as solve_study
+    from riskdiet.analysis.study import solve as solve_study
 
     with _guard():
         return solve_study(_load(path))
@@ -161,7 +161,7 @@ def solve(
     Example (after riskdiet demo): riskdiet solve riskdiet-demo/harrow-vale.xlsx --out
     results.xlsx
     """
-    from riskdiet.analysis import solve as solve_study
+    from riskdiet.analysis.study import solve as solve_study
     from riskdiet.io.atomic import OutputSet
 
     outputs = OutputSet(force, (study,))
@@ -221,7 +221,7 @@ def compare(study: Path = typer.Argument(..., help=STUDY_HELP)) -> None:
 
     Example (after riskdiet demo): riskdiet compare riskdiet-demo/harrow-vale.xlsx
     """
-    from riskdiet.compare import comparison_table
+    from riskdiet.analysis.compare import comparison_table
     from riskdiet.report.text import comparison_renderables
 
     result = _solved(study)
@@ -283,7 +283,7 @@ def brief(
     Example (after riskdiet demo): riskdiet brief riskdiet-demo/harrow-vale.xlsx --out
     brief.pdf
     """
-    from riskdiet.analysis import solve as solve_study
+    from riskdiet.analysis.study import solve as solve_study
     from riskdiet.io.atomic import OutputSet
     from riskdiet.report.brief import brief_date, write_brief
 
@@ -369,7 +369,7 @@ def map_command(
             # refuse existing or unwritable outputs before the (possibly long) computation
             check_map_files(loaded, request, out, chosen, force, outputs)
         result = _run_map(loaded, request, workers, scheduler, quiet)
-        from riskdiet.map_reading import read_map
+        from riskdiet.analysis.map_reading import read_map
         from riskdiet.report.map_figures import default_group
 
         chosen = chosen or default_group(result)
@@ -387,7 +387,7 @@ def map_command(
 
 
 def _map_request(study, x: str, y: str, scenario: str, gradient: str | None):
-    from riskdiet.maps import MapRequest, parse_axis, parse_target
+    from riskdiet.analysis.maps import MapRequest, parse_axis, parse_target
 
     problems = []
     axes = []
@@ -425,7 +425,7 @@ def _run_map(study, request, workers: int, scheduler: str | None, quiet: bool):
 
     from rich.progress import Progress
 
-    from riskdiet.maps import make_map
+    from riskdiet.analysis.maps import make_map
 
     console = Console(stderr=True)
     silent = quiet or not console.is_interactive or bool(os.environ.get("CI"))
@@ -456,7 +456,7 @@ def _map_in_pool(study, request, workers: int, progress):
     from concurrent.futures import ProcessPoolExecutor
     from concurrent.futures.process import BrokenProcessPool
 
-    from riskdiet.maps import make_map
+    from riskdiet.analysis.maps import make_map
 
     pool = ProcessPoolExecutor(max_workers=workers, initializer=_ignore_interrupt)
     try:

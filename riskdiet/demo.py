@@ -64,7 +64,7 @@ def write_demo(folder: str | Path = DEFAULT_FOLDER, force: bool = False) -> Demo
     OutputExistsError
         One of the three files exists and ``force`` is False (nothing is written).
     """
-    from riskdiet.analysis import solve
+    from riskdiet.analysis.study import solve
     from riskdiet.io import load_study
     from riskdiet.io.atomic import check_writable
     from riskdiet.io.results_workbook import write_results_workbook

@@ -1,8 +1,8 @@
-"""Individual-based simulation of predators, for checking riskdiet.chain.
+"""Individual-based simulation of predators, for checking riskdiet.core.chain.
 
 Written from MODEL.md section 2 (one day) and section 5 (the resets), using
 only the study dataclasses and the solver's attack ranks as the decision rule;
-nothing here calls riskdiet.grid or riskdiet.chain. Every predator is
+nothing here calls riskdiet.core.grid or riskdiet.core.chain. Every predator is
 simulated step by step with its own random numbers, vectorised over many
 predators with numpy. A fractional reserve y between levels L and L + 1 is
 moved to L + 1 with probability y - L, the random-rounding reading of the

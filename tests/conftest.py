@@ -8,7 +8,12 @@ from __future__ import annotations
 
 import copy
 import os
+import sys
 from pathlib import Path
+
+# the independent simulations (tests/simulation.py, tests/chain_simulation.py) are imported
+# by tests in sub-folders too
+sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 # must be set before typer is first imported, so CLI output carries no colour codes
 os.environ["_TYPER_FORCE_DISABLE_TERMINAL"] = "1"
@@ -17,7 +22,7 @@ os.environ.pop("PY_COLORS", None)
 
 import pytest
 
-from riskdiet.grid import make_grid
+from riskdiet.core.grid import make_grid
 from riskdiet.model import BASELINE
 from riskdiet.validation import build_study
 

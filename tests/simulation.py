@@ -2,7 +2,7 @@
 
 Written from the text of MODEL.md section 2 (one decision step) and section 3
 (the two currencies), and deliberately sharing no code with
-:mod:`riskdiet.grid` or :mod:`riskdiet.solver`: the grid units, encounter
+:mod:`riskdiet.core.grid` or :mod:`riskdiet.core.solver`: the grid units, encounter
 chances, capture success, boundaries and the season clock are all recomputed
 here from the study's raw fields. The only thing taken from the solver is its
 answer to "which prey does the predator attack in state (j, k)", the priority

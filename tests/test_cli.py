@@ -4,7 +4,7 @@ References used below:
 POSIX utility conventions (exit status 0 on success, 2 for usage/input
 errors; diagnostics on standard error); FIPS 180-4 SHA-256 via Python's
 hashlib; RFC 8259 JSON. The documented ``solve --json`` keys are those of
-riskdiet.analysis (StudyResult.to_dict).
+riskdiet.analysis.study (StudyResult.to_dict).
 """
 
 from __future__ import annotations

@@ -18,8 +18,8 @@ import pytest
 from conftest import EXAMPLE, ROOT, injury_raw
 from typer.testing import CliRunner
 
-from riskdiet import solver
 from riskdiet.cli import app
+from riskdiet.core import solver
 
 runner = CliRunner()
 

@@ -23,9 +23,9 @@ import pytest
 from conftest import EXAMPLE
 from typer.testing import CliRunner
 
+from riskdiet.analysis.maps import MapRequest, make_map, parse_axis
 from riskdiet.cli import app
 from riskdiet.io import load_study
-from riskdiet.maps import MapRequest, make_map, parse_axis
 
 runner = CliRunner()
 

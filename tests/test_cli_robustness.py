@@ -55,11 +55,11 @@ def test_output_path_under_a_file_is_refused_before_computing(tmp_path, monkeypa
     message naming the path, before solving anything."""
     path = study(tmp_path)
     (tmp_path / "afile").write_text("x")
-    import riskdiet.analysis
+    import riskdiet.analysis.study
 
     def never(*a, **k):
         raise AssertionError("solved although the output path is unusable")
-    monkeypatch.setattr(riskdiet.analysis, "solve", never)
+    monkeypatch.setattr(riskdiet.analysis.study, "solve", never)
     before = listing(tmp_path)
     err = failed_cleanly(run("solve", path, "--out", tmp_path / "afile" / "r.xlsx"))
     assert "afile is a file, not a folder" in err
@@ -139,13 +139,13 @@ def test_ctrl_c_says_so_and_writes_nothing(tmp_path, monkeypatch):
     """Ctrl-C exited silently; now it says so, exits 130 and leaves no output, also for a
     map with --out."""
     path = study(tmp_path)
-    import riskdiet.analysis
-    import riskdiet.maps
+    import riskdiet.analysis.maps
+    import riskdiet.analysis.study
 
     def interrupted(*a, **k):
         raise KeyboardInterrupt
-    monkeypatch.setattr(riskdiet.analysis, "solve", interrupted)
-    monkeypatch.setattr(riskdiet.maps, "make_map", interrupted)
+    monkeypatch.setattr(riskdiet.analysis.study, "solve", interrupted)
+    monkeypatch.setattr(riskdiet.analysis.maps, "make_map", interrupted)
     before = listing(tmp_path)
     err = failed_cleanly(run("solve", path, "--out", tmp_path / "r.xlsx"), 130)
     assert "interrupted; nothing was written" in err
@@ -161,14 +161,14 @@ def test_ctrl_c_stops_map_workers(tmp_path, monkeypatch):
     import multiprocessing
 
     path = study(tmp_path)
-    import riskdiet.maps
+    import riskdiet.analysis.maps
 
-    real = riskdiet.maps.make_map
+    real = riskdiet.analysis.maps.make_map
 
     def interrupt_after_submitting(study, request, executor=None, **kw):
         executor.submit(sum, [1, 2]).result()  # workers are running
         raise KeyboardInterrupt
-    monkeypatch.setattr(riskdiet.maps, "make_map", interrupt_after_submitting)
+    monkeypatch.setattr(riskdiet.analysis.maps, "make_map", interrupt_after_submitting)
     failed_cleanly(run("map", path, "--x", "hunting_ability=0.5:1:3", "--y",
                        "wild boar:energy_mj=10:50:3", "--workers", "2", "--out",
                        tmp_path / "maps"), 130)
@@ -182,11 +182,11 @@ def test_dead_worker_is_an_error_not_a_traceback(tmp_path, monkeypatch):
     from concurrent.futures.process import BrokenProcessPool
 
     path = study(tmp_path)
-    import riskdiet.maps
+    import riskdiet.analysis.maps
 
     def dies(*a, **k):
         raise BrokenProcessPool("a child process terminated abruptly")
-    monkeypatch.setattr(riskdiet.maps, "make_map", dies)
+    monkeypatch.setattr(riskdiet.analysis.maps, "make_map", dies)
     err = failed_cleanly(run("map", path, "--x", "hunting_ability=0.5:1:3", "--y",
                              "wild boar:energy_mj=10:50:3", "--workers", "2"))
     assert "a map worker process died" in err

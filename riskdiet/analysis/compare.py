@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from riskdiet.analysis import CONDITIONS, ScenarioResult, StudyResult
-from riskdiet.findings import WILD_GROUPS
+from riskdiet.analysis.findings import WILD_GROUPS
+from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult
 
 
 @dataclass(frozen=True)

@@ -10,7 +10,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.analysis import CONDITIONS, ScenarioResult
+from riskdiet.analysis.results import CONDITIONS, ScenarioResult
 
 WILD_GROUPS = {"wild", ""}
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from riskdiet.maps import MapResult
+from riskdiet.analysis.maps import MapResult
 
 
 def _share(mask: np.ndarray) -> str:

@@ -7,7 +7,7 @@ all expected encounters (``PREY:encounter_share``: the others are rescaled in
 proportion so that the total stays fixed).
 
 Work is split into bands of map rows. Within a band the rows are solved one
-after another, each row's cells together (:mod:`riskdiet.batch`), starting
+after another, each row's cells together (:mod:`riskdiet.core.batch`), starting
 from the fitness of the rows before (extrapolated); bands are independent and
 run through any :class:`concurrent.futures.Executor` (a local process pool, or
 a Dask cluster's executor).
@@ -25,15 +25,22 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.batch import solve_breeding_batch
-from riskdiet.chain import season_outlook
-from riskdiet.choice import one_step_value, step_values
+from riskdiet.analysis.regimes import classify
+from riskdiet.core.batch import solve_breeding_batch
+from riskdiet.core.chain import season_outlook
+from riskdiet.core.choice import one_step_value, step_values
+from riskdiet.core.grid import (
+    Grid,
+    attack_probabilities,
+    make_grid,
+    make_grids,
+    take_cells,
+    targets,
+)
+from riskdiet.core.solver import solve_season
 from riskdiet.errors import Problem, SolveError, StudyError, describe
 from riskdiet.fields import INTEGER, did_you_mean, field_specs
-from riskdiet.grid import Grid, attack_probabilities, make_grid, make_grids, take_cells, targets
 from riskdiet.model import BASELINE, Predator, Prey, Study, round_half_up
-from riskdiet.regimes import classify
-from riskdiet.solver import solve_season
 from riskdiet.validation import check_values, size_problem
 
 SHARE = "encounter_share"

@@ -1,6 +1,6 @@
 """What gets killed: kill predictions with names, per predator and population.
 
-Turns the numeric core's Markov-chain results (:mod:`riskdiet.chain`) into
+Turns the numeric core's Markov-chain results (:mod:`riskdiet.core.chain`) into
 named tables a management plan can quote: kills of each prey type per predator
 per day, per 30 days and per year, population totals, diet shares by number
 and by energy, and sums by prey group (MODEL.md section 5).
@@ -13,11 +13,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.chain import season_outlook, steady_state
-from riskdiet.cohort import released_cohort
-from riskdiet.grid import Grid
+from riskdiet.core.chain import season_outlook, steady_state
+from riskdiet.core.cohort import released_cohort
+from riskdiet.core.grid import Grid
+from riskdiet.core.solver import Solution
 from riskdiet.model import Predator, Prey
-from riskdiet.solver import Solution
 
 DAYS_PER_YEAR = 365.0
 DAYS_PER_MONTH = 30.0

@@ -2,16 +2,16 @@
 
 Map cells and uncertainty draws differ only in their numbers, not in the shape
 of their state space, so their policy iterations run side by side: every
-per-cell array carries a leading batch axis (:func:`riskdiet.grid.stack_grids`),
+per-cell array carries a leading batch axis (:func:`riskdiet.core.grid.stack_grids`),
 each round evaluates all unfinished cells with one batched dense LU
 factorisation (LAPACK getrf), and a cell
 leaves the batch as soon as its policy repeats. The same factors then give
 the marginal values (envelope theorem) and the long-run kill rates, so every
 cell costs about one factorisation per policy-iteration round.
 
-The equations are those of :mod:`riskdiet.solver` and :mod:`riskdiet.chain`
-(MODEL.md sections 3-5), written once in :mod:`riskdiet.grid` and
-:func:`riskdiet.solver.step_values`; a batch cell equals a single solve.
+The equations are those of :mod:`riskdiet.core.solver` and :mod:`riskdiet.core.chain`
+(MODEL.md sections 3-5), written once in :mod:`riskdiet.core.grid` and
+:func:`riskdiet.core.solver.step_values`; a batch cell equals a single solve.
 
 References
 ----------
@@ -33,14 +33,13 @@ import scipy.linalg as sla
 from scipy.linalg.lapack import dgetrf as _getrf
 from threadpoolctl import threadpool_limits
 
-from riskdiet.choice import (
+from riskdiet.core.choice import (
     choice_values,
     default_sets,
     keep_unless_better,
     relative_residual,
 )
-from riskdiet.errors import RiskdietError
-from riskdiet.grid import (
+from riskdiet.core.grid import (
     Grid,
     Outcome,
     attack_probabilities,
@@ -49,7 +48,8 @@ from riskdiet.grid import (
     take_cells,
     targets,
 )
-from riskdiet.solver import MAX_POLICY_ITERATIONS, RESIDUAL_LIMIT, SINGULAR, SUM_LIMIT
+from riskdiet.core.solver import MAX_POLICY_ITERATIONS, RESIDUAL_LIMIT, SINGULAR, SUM_LIMIT
+from riskdiet.errors import RiskdietError
 
 _BLAS_LOCK = threading.Lock()
 _BLAS_USERS = 0
@@ -140,7 +140,7 @@ def dense_system(grid: Grid, parts: list[Outcome], fortran: bool = False
     """Batched I - P among living states and the one-step breeding chance.
 
     States are ordered condition-major (k m + j - 1), as in
-    :func:`riskdiet.solver.transition_matrix`.
+    :func:`riskdiet.core.solver.transition_matrix`.
 
     Parameters
     ----------
@@ -222,7 +222,7 @@ def solve_breeding_batch(grid: Grid, extra_direct=None,
     Parameters
     ----------
     grid : Grid
-        A stacked grid (:func:`riskdiet.grid.stack_grids`), breeding currency.
+        A stacked grid (:func:`riskdiet.core.grid.stack_grids`), breeding currency.
     extra_direct : callable, optional
         ``extra_direct(index, values, priority) -> (C, 2, m)``: the derivative of
         the one-step value with respect to a further input at fixed values and
@@ -233,7 +233,7 @@ def solve_breeding_batch(grid: Grid, extra_direct=None,
     Returns
     -------
     BatchSolution
-        Every cell equals :func:`riskdiet.solver.solve_breeding` of its own
+        Every cell equals :func:`riskdiet.core.solver.solve_breeding` of its own
         grid: the iteration starts from the same default policy and keeps
         incumbents on the same rule (MODEL.md section 3). A cell whose solve
         fails is named in ``failures``, never returned as numbers.
@@ -372,7 +372,7 @@ def _kill_rates(grid: Grid, attack_prob: np.ndarray, from_start: np.ndarray,
     with both resets (renewal-reward), so kills per day = x.kill / x.days. When
     the predator cannot die (V(j_rho) = 1) the long run is the cycle between
     breedings, whose visits are w. "Cannot die" means practically never:
-    U(j_rho) < 1e-9 (MODEL.md section 5), as in :func:`riskdiet.chain.steady_state`.
+    U(j_rho) < 1e-9 (MODEL.md section 5), as in :func:`riskdiet.core.chain.steady_state`.
     """
     kill = kill_probabilities(grid, attack_prob).reshape(attack_prob.shape[0], -1,
                                                          grid.n_prey)

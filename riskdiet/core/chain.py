@@ -1,6 +1,6 @@
 """What the predator kills: the Markov chain under the optimal policy (MODEL.md section 5).
 
-The optimal policy of :mod:`riskdiet.solver` turns the day's process into a
+The optimal policy of :mod:`riskdiet.core.solver` turns the day's process into a
 Markov chain on the living states (level, condition). This module reads kill
 rates, survival and lifetimes off that chain exactly (linear solves, no
 simulation):
@@ -12,13 +12,13 @@ simulation):
 * season currency: the distribution of states pushed forward day by day from
   (j0, healthy) under the policy of each day (:func:`season_outlook`).
 
-The transitions themselves come from :func:`riskdiet.grid.outcomes` and
-:func:`riskdiet.solver.transition_matrix`, the same code the solver uses, so
+The transitions themselves come from :func:`riskdiet.core.grid.outcomes` and
+:func:`riskdiet.core.solver.transition_matrix`, the same code the solver uses, so
 the chain and the fitness values describe one process. Only the split of the
 deaths into causes and the kill counts are computed here.
 
 States are ordered condition-major, index k m + (j - 1), as in
-:func:`riskdiet.solver.transition_matrix`.
+:func:`riskdiet.core.solver.transition_matrix`.
 
 References
 ----------
@@ -43,8 +43,7 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import breadth_first_order
 from scipy.sparse.linalg import splu
 
-from riskdiet.errors import RiskdietError
-from riskdiet.grid import (
+from riskdiet.core.grid import (
     Grid,
     Outcome,
     Targets,
@@ -53,7 +52,8 @@ from riskdiet.grid import (
     outcomes,
     targets,
 )
-from riskdiet.solver import LinearSolve, Solution, transition_matrix
+from riskdiet.core.solver import LinearSolve, Solution, transition_matrix
+from riskdiet.errors import RiskdietError
 
 DEATH_CAUSES = ("starvation", "attack", "other")
 """Order of the death causes in :attr:`ChainStep.deaths`."""
@@ -139,7 +139,7 @@ def death_probabilities(grid: Grid, tg: Targets, attack_prob: np.ndarray,
     attack_prob : ndarray, shape (2, m, P)
         P_i under the policy.
     parts : list of Outcome
-        The step's outcomes under the same policy (:func:`riskdiet.grid.outcomes`).
+        The step's outcomes under the same policy (:func:`riskdiet.core.grid.outcomes`).
 
     Returns
     -------
@@ -159,7 +159,7 @@ def chain_step(grid: Grid, priority: np.ndarray, tg: Targets | None = None) -> C
     grid : Grid
     priority : ndarray of int, shape (2, m, P)
         Rank of each prey in the attack set at each living state, -1 if
-        ignored (:meth:`riskdiet.solver.Solution.living_priority`).
+        ignored (:meth:`riskdiet.core.solver.Solution.living_priority`).
     tg : Targets, optional
         Outcome reserves, when already computed.
 
@@ -370,7 +370,7 @@ def steady_state(grid: Grid, solution: Solution) -> SteadyState:
     grid : Grid
         Discretised study, breeding currency.
     solution : Solution
-        Its optimal policy (:func:`riskdiet.solver.solve_breeding`).
+        Its optimal policy (:func:`riskdiet.core.solver.solve_breeding`).
 
     Returns
     -------
@@ -520,7 +520,7 @@ def season_outlook(grid: Grid, solution: Solution) -> SeasonOutlook:
     grid : Grid
         Discretised study, season currency.
     solution : Solution
-        Its day-by-day policy (:func:`riskdiet.solver.solve_season`).
+        Its day-by-day policy (:func:`riskdiet.core.solver.solve_season`).
 
     Returns
     -------

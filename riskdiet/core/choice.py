@@ -10,7 +10,7 @@ would attack. Policy iteration switches a state from its incumbent set only on
 a strict improvement, so it cannot cycle.
 
 Everything here works on a single grid and on a stacked batch of grids
-(leading batch axes, :func:`riskdiet.grid.stack_grids`) alike.
+(leading batch axes, :func:`riskdiet.core.grid.stack_grids`) alike.
 
 References
 ----------
@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.grid import Grid, Split, Targets, attack_probabilities
+from riskdiet.core.grid import Grid, Split, Targets, attack_probabilities
 
 RELATIVE_TOLERANCE = 1e-12
 """tau: one choice beats another only by more than this fraction of the larger value."""
@@ -94,7 +94,7 @@ def step_values(grid: Grid, tg: Targets, v_stay: np.ndarray, v_cap: np.ndarray
     """Values of ignoring and of attacking each prey, from every living state.
 
     Works on one grid or on a stacked batch of grids (leading batch axes *B on
-    every per-cell array, see :func:`riskdiet.grid.stack_grids`).
+    every per-cell array, see :func:`riskdiet.core.grid.stack_grids`).
 
     Parameters
     ----------

@@ -281,51 +281,8 @@ def classic_prey_model(
     a diet ``D`` is Holling's (1959) ``R(D) = sum a_i e_i / (1 + sum a_i h_i)``
     (see :func:`holling_rate`).
 
-    *Rate-maximising diet* (Charnov 1976; Stephens & Krebs 1986, ch. 2). Rank
-    by profitability ``e_i / h_i`` (ties: listed first; ``h_i = 0`` ranks
-    first). Walking down the ranking, the k-th prey joins when
-
-    .. math:: e_k / h_k \\ge R(\\text{top } k-1)
-
-    and the first prey that fails ends the diet: it and every prey ranked below
-    are excluded (zero-one rule). A prey met at zero rate, or never captured,
-    still gets a rank; including it leaves the rate unchanged.
-
-    *Switching threshold* of an excluded prey ``j``. Let ``B`` be every prey
-    ranked above ``j`` (included or not) and scale all their encounter rates by a
-    common factor ``t``. Then ``j`` is excluded exactly while
-    ``R(B) > e_j / h_j``. With ``N = sum_B a_i e_i``, ``H = sum_B a_i h_i`` and
-    ``Lambda_B = sum_B lambda_i``, solving ``tN / (1 + tH) = e_j / h_j`` gives
-    the total encounter rate of the better prey at the switch
-
-    .. math:: \\Lambda^* = \\frac{(e_j/h_j) \\Lambda_B}{N - (e_j/h_j) H}
-
-    which for one better prey is ``e_2 / (s_1 (e_1 h_2 - e_2 h_1))``, the
-    classic two-prey threshold of Charnov (1976) when ``s_1 = 1``. When
-    ``N <= (e_j/h_j) H`` the better prey can never reach that rate (their
-    asymptotic rate ``N/H`` is too low) and the threshold is ``inf``.
-
-    *Risk-adjusted diet* (Gilliam's rule; Werner & Gilliam 1984). Each diet has
-    mortality rate and net gain
-
-    .. math:: \\mu(D) = \\mu + \\frac{\\sum_{i \\in D} \\lambda_i f_i}
-                                    {1 + \\sum_{i \\in D} \\lambda_i s_i h_i},
-              \\qquad g(D) = R(D) - c
-
-    and the chosen diet minimises ``mu(D) / g(D)`` [1/MJ] over non-empty diets
-    with ``g(D) > 0``. Ties (within a relative 1e-12, e.g. several risk-free
-    diets with ``mu(D) = 0``) go to the highest net gain, then to the fewest
-    prey types (a prey that changes nothing is left out), then to the diet
-    whose prey are listed first. Up to ``exact_limit`` prey types every one of
-    the ``2**P - 1`` diets is evaluated at once as a bit-matrix. Above, a local
-    search starts from the rate-maximising diet and from the best single prey
-    type, and repeatedly makes the single addition or removal that lowers
-    ``mu/g`` most, until none does; the better end point is reported. It is
-    never worse than either start, but may miss the global optimum.
-
-    No diet has ``g > 0`` exactly when the rate-maximising diet has
-    ``R <= c``; then the well-fed model does not apply and the risk-adjusted
-    fields are ``None``.
+    The rate-maximising diet and switching thresholds are those of
+    :func:`_charnov`, the risk-adjusted diet that of :func:`_gilliam`.
 
     References
     ----------
@@ -353,36 +310,10 @@ def classic_prey_model(
 
     prey = _Prey(lam=lam, gain=lam * s * e, handling=lam * s * h, risk=lam * f)
     profitability = _profitability(e, h)
-    # -inf sorts first, so zero-handling prey lead; a stable sort keeps listing order on ties.
-    order = np.argsort(-profitability, kind="stable")
-    rank = np.empty(count, dtype=int)
-    rank[order] = np.arange(1, count + 1)
-
-    # Rates of the top k-1 prey for every k, from running sums in rank order.
-    gain_before = np.concatenate(([0.0], np.cumsum(prey.gain[order])[:-1]))
-    handling_before = np.concatenate(([0.0], np.cumsum(prey.handling[order])[:-1]))
-    lam_before = np.concatenate(([0.0], np.cumsum(lam[order])[:-1]))
-    rate_before = gain_before / (1.0 + handling_before)
-    joins = profitability[order] >= rate_before
-    n_included = count if joins.all() else int(np.argmin(joins))
-
-    charnov_mask = np.zeros(count, dtype=bool)
-    charnov_mask[order[:n_included]] = True
+    ranking = _charnov(prey, profitability, labels)
+    order, charnov_mask = ranking.order, ranking.diet
     charnov_rate = float(prey.rates(charnov_mask))
-
-    thresholds: dict[str, float] = {}
-    for position in range(n_included, count):
-        j = order[position]
-        p = profitability[j]
-        slack = gain_before[position] - p * handling_before[position]
-        thresholds[labels[j]] = float(p * lam_before[position] / slack) if slack > 0 else math.inf
-
-    if count <= exact_limit:
-        method = EXACT_METHOD
-        best = _best_by_enumeration(prey, mu, cost)
-    else:
-        method = HEURISTIC_METHOD
-        best = _best_by_local_search(prey, mu, cost, charnov_mask)
+    best, method = _gilliam(prey, mu, cost, charnov_mask, exact_limit)
 
     def in_rank_order(mask: np.ndarray) -> tuple[str, ...]:
         return tuple(labels[i] for i in order if mask[i])
@@ -401,10 +332,10 @@ def classic_prey_model(
     return ClassicResult(
         names=labels,
         profitability_mj_per_day=_frozen(profitability),
-        rank=_frozen(rank),
+        rank=_frozen(ranking.rank),
         rate_maximizing_diet=charnov_diet,
         rate_mj_per_day=charnov_rate,
-        switching_threshold_per_day=thresholds,
+        switching_threshold_per_day=ranking.thresholds,
         risk_adjusted_diet=risk_diet,
         risk_adjusted_mortality_per_day=risk_mortality,
         risk_adjusted_net_gain_mj_per_day=risk_gain,
@@ -430,6 +361,112 @@ class _Prey:
     def mortality(self, masks: np.ndarray, mu: float) -> np.ndarray:
         weights = masks.astype(float)
         return mu + (weights @ self.risk) / (1.0 + weights @ self.handling)
+
+
+@dataclass(frozen=True)
+class _Ranking:
+    """Charnov's ranking: order by profitability, ranks, the diet and thresholds."""
+
+    order: np.ndarray
+    rank: np.ndarray
+    diet: np.ndarray
+    thresholds: dict[str, float]
+
+
+def _charnov(prey: _Prey, profitability: np.ndarray, labels: tuple[str, ...]) -> _Ranking:
+    """Rank prey by profitability; the zero-one rate-maximising diet and switching thresholds.
+
+    Notes
+    -----
+    *Rate-maximising diet* (Charnov 1976; Stephens & Krebs 1986, ch. 2). Rank
+    by profitability ``e_i / h_i`` (ties: listed first; ``h_i = 0`` ranks
+    first). Walking down the ranking, the k-th prey joins when
+
+    .. math:: e_k / h_k \\ge R(\\text{top } k-1)
+
+    and the first prey that fails ends the diet: it and every prey ranked below
+    are excluded (zero-one rule). A prey met at zero rate, or never captured,
+    still gets a rank; including it leaves the rate unchanged.
+
+    *Switching threshold* of an excluded prey ``j``. Let ``B`` be every prey
+    ranked above ``j`` (included or not) and scale all their encounter rates by a
+    common factor ``t``. Then ``j`` is excluded exactly while
+    ``R(B) > e_j / h_j``. With ``N = sum_B a_i e_i``, ``H = sum_B a_i h_i`` and
+    ``Lambda_B = sum_B lambda_i``, solving ``tN / (1 + tH) = e_j / h_j`` gives
+    the total encounter rate of the better prey at the switch
+
+    .. math:: \\Lambda^* = \\frac{(e_j/h_j) \\Lambda_B}{N - (e_j/h_j) H}
+
+    which for one better prey is ``e_2 / (s_1 (e_1 h_2 - e_2 h_1))``, the
+    classic two-prey threshold of Charnov (1976) when ``s_1 = 1``. When
+    ``N <= (e_j/h_j) H`` the better prey can never reach that rate (their
+    asymptotic rate ``N/H`` is too low) and the threshold is ``inf``.
+
+    References
+    ----------
+    .. [1] Charnov, E. L. (1976) Optimal foraging: attack strategy of a mantid.
+       American Naturalist 110, 141-151.
+    """
+    count = len(labels)
+    # -inf sorts first, so zero-handling prey lead; a stable sort keeps listing order on ties.
+    order = np.argsort(-profitability, kind="stable")
+    rank = np.empty(count, dtype=int)
+    rank[order] = np.arange(1, count + 1)
+    # Rates of the top k-1 prey for every k, from running sums in rank order.
+    gain_before = np.concatenate(([0.0], np.cumsum(prey.gain[order])[:-1]))
+    handling_before = np.concatenate(([0.0], np.cumsum(prey.handling[order])[:-1]))
+    lam_before = np.concatenate(([0.0], np.cumsum(prey.lam[order])[:-1]))
+    rate_before = gain_before / (1.0 + handling_before)
+    joins = profitability[order] >= rate_before
+    n_included = count if joins.all() else int(np.argmin(joins))
+    diet = np.zeros(count, dtype=bool)
+    diet[order[:n_included]] = True
+    thresholds: dict[str, float] = {}
+    for position in range(n_included, count):
+        j = order[position]
+        p = profitability[j]
+        slack = gain_before[position] - p * handling_before[position]
+        thresholds[labels[j]] = float(p * lam_before[position] / slack) if slack > 0 else math.inf
+    return _Ranking(order, rank, diet, thresholds)
+
+
+def _gilliam(prey: _Prey, mu: float, cost: float, charnov_mask: np.ndarray,
+             exact_limit: int) -> tuple[np.ndarray | None, str]:
+    """The risk-adjusted diet minimising mortality over net gain, and how it was found.
+
+    Notes
+    -----
+    *Risk-adjusted diet* (Gilliam's rule; Werner & Gilliam 1984). Each diet has
+    mortality rate and net gain
+
+    .. math:: \\mu(D) = \\mu + \\frac{\\sum_{i \\in D} \\lambda_i f_i}
+                                    {1 + \\sum_{i \\in D} \\lambda_i s_i h_i},
+              \\qquad g(D) = R(D) - c
+
+    and the chosen diet minimises ``mu(D) / g(D)`` [1/MJ] over non-empty diets
+    with ``g(D) > 0``. Ties (within a relative 1e-12, e.g. several risk-free
+    diets with ``mu(D) = 0``) go to the highest net gain, then to the fewest
+    prey types (a prey that changes nothing is left out), then to the diet
+    whose prey are listed first. Up to ``exact_limit`` prey types every one of
+    the ``2**P - 1`` diets is evaluated at once as a bit-matrix. Above, a local
+    search starts from the rate-maximising diet and from the best single prey
+    type, and repeatedly makes the single addition or removal that lowers
+    ``mu/g`` most, until none does; the better end point is reported. It is
+    never worse than either start, but may miss the global optimum.
+
+    No diet has ``g > 0`` exactly when the rate-maximising diet has
+    ``R <= c``; then the well-fed model does not apply and the risk-adjusted
+    fields are ``None``.
+
+    References
+    ----------
+    .. [1] Werner, E. E. & Gilliam, J. F. (1984) The ontogenetic niche and
+       species interactions in size-structured populations. Annual Review of
+       Ecology and Systematics 15, 393-425.
+    """
+    if len(prey.lam) <= exact_limit:
+        return _best_by_enumeration(prey, mu, cost), EXACT_METHOD
+    return _best_by_local_search(prey, mu, cost, charnov_mask), HEURISTIC_METHOD
 
 
 def _best_by_enumeration(prey: _Prey, mu: float, cost: float) -> np.ndarray | None:

@@ -1,6 +1,6 @@
 """The released cohort: what the animals actually released do over a horizon.
 
-Long-run kill rates (:mod:`riskdiet.chain`) describe a *place kept filled*:
+Long-run kill rates (:mod:`riskdiet.core.chain`) describe a *place kept filled*:
 every predator that dies is replaced at once. A manager plans with the animals
 they release, without replacement. This module pushes the distribution of one
 released animal's state forward day by day under the optimal policy, exactly
@@ -18,7 +18,7 @@ counts on the day its step ends, and the animal goes on at (round(rho n),
 healthy).
 
 Season currency: the season's own forward propagation
-(:func:`riskdiet.chain.season_outlook`) over the season; no breeding events.
+(:func:`riskdiet.core.chain.season_outlook`) over the season; no breeding events.
 
 References
 ----------
@@ -37,10 +37,10 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 
-from riskdiet.chain import kill_probabilities, season_outlook
+from riskdiet.core.chain import kill_probabilities, season_outlook
+from riskdiet.core.grid import Grid, attack_probabilities, outcomes, targets
+from riskdiet.core.solver import Solution, transition_matrix
 from riskdiet.errors import RiskdietError
-from riskdiet.grid import Grid, attack_probabilities, outcomes, targets
-from riskdiet.solver import Solution, transition_matrix
 
 
 @dataclass(frozen=True)
@@ -121,7 +121,7 @@ def released_cohort(grid: Grid, solution: Solution, horizon_days: int) -> Cohort
     grid : Grid
         Discretised study.
     solution : Solution
-        Its optimal policy (:func:`riskdiet.solver.solve_grid`).
+        Its optimal policy (:func:`riskdiet.core.solver.solve_grid`).
     horizon_days : int
         L [day]; ignored in the season currency, whose horizon is the season.
 

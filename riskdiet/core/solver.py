@@ -31,7 +31,7 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.linalg import bicgstab, splu
 
-from riskdiet.choice import (
+from riskdiet.core.choice import (
     choice_values,
     default_sets,
     keep_unless_better,
@@ -39,8 +39,7 @@ from riskdiet.choice import (
     set_values,
     step_values,
 )
-from riskdiet.errors import SolveError
-from riskdiet.grid import (
+from riskdiet.core.grid import (
     Grid,
     Outcome,
     attack_probabilities,
@@ -48,6 +47,7 @@ from riskdiet.grid import (
     outcomes,
     targets,
 )
+from riskdiet.errors import SolveError
 
 __all__ = ["LinearSolve", "Solution", "solve_breeding", "solve_grid", "solve_season",
            "step_values", "transition_matrix"]
@@ -270,7 +270,7 @@ def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS) -> S
     Notes
     -----
     Policy iteration for a transient Markov decision process [3]_, started
-    from the default policy (:func:`riskdiet.choice.default_sets`). Each round
+    from the default policy (:func:`riskdiet.core.choice.default_sets`). Each round
     evaluates V = (I - P)^-1 b and its complement U = (I - P)^-1 d exactly (b
     the one-step breeding chance, d the one-step chance of dying), then
     switches a state to the greedy set only where that raises its one-step

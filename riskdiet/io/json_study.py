@@ -7,7 +7,7 @@ import json
 from pathlib import Path
 
 from riskdiet.errors import Problem, StudyError
-from riskdiet.io.load import file_sha256
+from riskdiet.io.source import file_sha256
 from riskdiet.model import Study
 from riskdiet.validation import build_study
 

@@ -2,28 +2,11 @@
 
 from __future__ import annotations
 
-import hashlib
 from pathlib import Path
 
 from riskdiet.errors import Problem, StudyError
+from riskdiet.io.source import ACCEPTED, MISTAKES
 from riskdiet.model import Study
-
-ACCEPTED = ".xlsx (Excel workbook) or .json (riskdiet study file)"
-_MISTAKES = {
-    ".xls": "an old-style Excel file",
-    ".ods": "an OpenDocument spreadsheet",
-    ".csv": "a CSV text file",
-    ".xlsm": "a macro-enabled workbook",
-}
-
-
-def file_sha256(path: Path) -> str:
-    """SHA-256 of a file's bytes, hex."""
-    digest = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 16), b""):
-            digest.update(block)
-    return digest.hexdigest()
 
 
 def load_study(path: str | Path) -> Study:
@@ -47,16 +30,16 @@ def load_study(path: str | Path) -> Study:
         raise StudyError([Problem(name, "an existing study file", "no such file")])
     if path.is_dir():
         raise StudyError([Problem(name, "a study file", "a folder")])
-    if suffix in _MISTAKES:
+    if suffix in MISTAKES:
         raise StudyError([Problem(name, f"{ACCEPTED}; save the file as .xlsx in your "
-                                  "spreadsheet program", _MISTAKES[suffix])])
+                                  "spreadsheet program", MISTAKES[suffix])])
     if suffix in (".json", ".xlsx"):
         if suffix == ".json":
             from riskdiet.io.json_study import read_json_study as read
         else:
             from riskdiet.io.workbook import read_workbook_study as read
         study = read(path)
-        from riskdiet.maps import check_settings_map
+        from riskdiet.analysis.maps import check_settings_map
 
         # every command runs the same checks, so `check` catches what `solve` would refuse
         check_settings_map(study)

@@ -5,8 +5,8 @@ from __future__ import annotations
 import csv
 from pathlib import Path
 
+from riskdiet.analysis.maps import MapResult
 from riskdiet.io.atomic import OutputSet, check_writable, write_atomic
-from riskdiet.maps import MapResult
 
 
 def write_map_csv(result: MapResult, path: Path, force: bool = False, outputs=None) -> Path:

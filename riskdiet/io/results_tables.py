@@ -10,8 +10,8 @@ import datetime as _dt
 import re
 from dataclasses import dataclass, field
 
-from riskdiet.analysis import ScenarioResult, StudyResult
-from riskdiet.compare import comparison_table
+from riskdiet.analysis.compare import comparison_table
+from riskdiet.analysis.results import ScenarioResult, StudyResult
 from riskdiet.fields import field_specs
 from riskdiet.model import Predator, Prey, Study
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import csv
 from pathlib import Path
 
-from riskdiet.analysis import StudyResult
+from riskdiet.analysis.results import StudyResult
 from riskdiet.io.atomic import OutputSet, write_atomic
 from riskdiet.io.results_tables import Table, results_tables, table_names
 from riskdiet.model import Study

@@ -60,8 +60,8 @@ from typing import Any
 
 from riskdiet.errors import Notice, Problem, StudyError, describe
 from riskdiet.fields import field_specs
-from riskdiet.io.load import ACCEPTED, file_sha256
 from riskdiet.io.sheet_table import Table, column_letter, key_of, read_table, sheet_ref
+from riskdiet.io.source import ACCEPTED, file_sha256
 from riskdiet.model import Predator, Prey, Settings, Study
 from riskdiet.validation import build_study
 

@@ -29,10 +29,12 @@ from reportlab.lib.units import mm
 from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import BaseDocTemplate, Frame, PageTemplate, Spacer
 
-from riskdiet.analysis import StudyResult
+from riskdiet.analysis.results import StudyResult
+from riskdiet.core.solver import DIRECT_LIMIT, MAX_POLICY_ITERATIONS, SOLVE_TOLERANCE
 from riskdiet.errors import Problem, StudyError
 from riskdiet.model import Study
 from riskdiet.report import figures as figs
+from riskdiet.report.figure_style import DPI_BRIEF
 from riskdiet.report.fonts import FontSet, register_fonts
 from riskdiet.report.layout import (
     MARGIN_BOTTOM,
@@ -48,7 +50,6 @@ from riskdiet.report.layout import (
 )
 from riskdiet.report.map_section import map_section
 from riskdiet.report.sections import MAPS, NUM, REFERENCES, SECTIONS, Builder, _num
-from riskdiet.solver import DIRECT_LIMIT, MAX_POLICY_ITERATIONS, SOLVE_TOLERANCE
 
 __all__ = ["SECTIONS", "BriefPlan", "brief_date", "brief_story", "build_brief", "write_brief"]
 
@@ -246,7 +247,7 @@ def _appendix(b: Builder, plan: BriefPlan) -> None:
         f"{esc(study.source_sha256 or '—')}</font>). "
         f"Date {esc(plan.date)}, taken from {esc(plan.date_origin)}. "
         f"This brief draws {n_fig} figure{'s' if n_fig != 1 else ''}, embedded as PNG "
-        f"images at {figs.DPI_BRIEF} dpi. The same input file, date and paper size give this "
+        f"images at {DPI_BRIEF} dpi. The same input file, date and paper size give this "
         "document byte for byte: "
         f"<font name=\"{plan.fonts.mono}\" size=\"8\">riskdiet brief "
         f"{esc(_input_name(study))} --date {esc(plan.date)} --paper {plan.paper}</font>.")

@@ -1,8 +1,8 @@
 """Figures of a two-input map: regimes, the value of hunting skill, predicted kills.
 
-Drawn only from a :class:`riskdiet.maps.MapResult`; nothing is recomputed.
+Drawn only from a :class:`riskdiet.analysis.maps.MapResult`; nothing is recomputed.
 Regime colours and hatches come from the brief's palette
-(:data:`riskdiet.report.figures.PALETTE`), so the maps read in greyscale too.
+(:data:`riskdiet.report.figure_style.PALETTE`), so the maps read in greyscale too.
 """
 
 from __future__ import annotations
@@ -11,9 +11,9 @@ import textwrap
 
 import numpy as np
 
-from riskdiet.findings import WILD_GROUPS
-from riskdiet.maps import MapResult
-from riskdiet.report.figures import (
+from riskdiet.analysis.findings import WILD_GROUPS
+from riskdiet.analysis.maps import MapResult
+from riskdiet.report.figure_style import (
     HATCHES,
     PALETTE,
     WIDTH_IN,

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from riskdiet.map_reading import read_map
+from riskdiet.analysis.map_reading import read_map
 from riskdiet.report.layout import esc
 from riskdiet.report.map_figures import default_group
 from riskdiet.report.sections import MAPS, Builder

@@ -1,7 +1,7 @@
 """Content of the brief, section by section (flowables; the document is in brief.py).
 
 Every number printed here is read from the results (:class:`StudyResult`,
-:func:`riskdiet.compare.comparison_table`); nothing is recomputed.
+:func:`riskdiet.analysis.compare.comparison_table`); nothing is recomputed.
 """
 
 from __future__ import annotations
@@ -12,10 +12,10 @@ from collections.abc import Callable
 
 from reportlab.platypus import CondPageBreak, Image, KeepTogether, Paragraph, Spacer
 
-from riskdiet.analysis import CONDITIONS, ScenarioResult, StudyResult
+from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult
 from riskdiet.fields import field_specs
 from riskdiet.model import Predator, Prey, Study
-from riskdiet.report.figures import BriefFigure, png_bytes
+from riskdiet.report.figure_style import BriefFigure, png_bytes
 from riskdiet.report.layout import Column, Styles, esc, split_wide
 from riskdiet.report.text import format_delta, format_value
 
@@ -308,7 +308,7 @@ class Builder:
             "where a number does not apply (no breeding events in the season currency)."))
 
     def comparison(self) -> None:
-        from riskdiet.compare import comparison_table
+        from riskdiet.analysis.compare import comparison_table
 
         table = comparison_table(self.result)
         cols = table.columns

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from riskdiet.analysis import CONDITIONS, ScenarioResult, StudyResult
+from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult
 
 
 def percent(fraction: float) -> str:

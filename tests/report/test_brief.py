@@ -27,11 +27,12 @@ from reportlab.platypus import Image, KeepTogether, Table
 from typer.testing import CliRunner
 
 import riskdiet
-from riskdiet.analysis import solve
+from riskdiet.analysis.study import solve
 from riskdiet.cli import app
 from riskdiet.errors import OutputExistsError, StudyError
 from riskdiet.io import load_study
 from riskdiet.report import brief as brief_mod
+from riskdiet.report import figure_style
 from riskdiet.report import figures as figs
 from riskdiet.report.layout import frame_size
 from riskdiet.report.sections import (
@@ -260,7 +261,7 @@ def test_twenty_prey_twelve_scenarios_fit_the_page(monkeypatch, paper):
     text-frame width (page width minus 2 x 20 mm margins; ISO 216 / ANSI
     letter sizes), images also fit the frame height, tables repeat their header
     row, and the document builds (common practice: nothing runs off the page)."""
-    monkeypatch.setattr(figs, "DPI_BRIEF", 30)  # layout does not depend on resolution
+    monkeypatch.setattr(figure_style, "DPI_BRIEF", 30)  # layout does not depend on resolution
     result = solve(build_study(big_raw("breeding" if paper == "a4" else "season")))
     plan = brief_mod.BriefPlan(result, paper=paper)
     width, height = frame_size(paper)

@@ -20,8 +20,9 @@ import numpy as np
 import pytest
 from conftest import INJURY_STUDY, injury_raw
 
-from riskdiet.analysis import CONDITIONS, solve
+from riskdiet.analysis.study import CONDITIONS, solve
 from riskdiet.errors import OutputExistsError
+from riskdiet.report import figure_style as style
 from riskdiet.report import figures as figs
 from riskdiet.validation import build_study
 
@@ -84,7 +85,7 @@ def test_palette_colours_stay_apart_for_colour_blind_readers(deficiency):
     20 units is far above the just-noticeable difference of about 2.3
     (common practice)."""
     matrix = np.array(MACHADO_SEVERITY_1[deficiency])
-    labs = [cielab(matrix @ linear_rgb(c)) for c in figs.PALETTE]
+    labs = [cielab(matrix @ linear_rgb(c)) for c in style.PALETTE]
     smallest = min(np.linalg.norm(a - b) for a, b in itertools.combinations(labs, 2))
     assert smallest >= 20, smallest
 
@@ -93,11 +94,11 @@ def test_palette_reads_in_greyscale_with_hatching():
     """Printed in greyscale, two colours whose CIELAB lightness differs by less
     than 10 units look alike (common practice), so they must carry different
     hatches; and the first 72 (colour, hatch) styles are all different."""
-    lightness = [cielab(linear_rgb(c))[0] for c in figs.PALETTE]
-    for i, j in itertools.combinations(range(len(figs.PALETTE)), 2):
+    lightness = [cielab(linear_rgb(c))[0] for c in style.PALETTE]
+    for i, j in itertools.combinations(range(len(style.PALETTE)), 2):
         if abs(lightness[i] - lightness[j]) < 10:
-            assert figs.prey_style(i)[1] != figs.prey_style(j)[1], (i, j)
-    styles = [figs.prey_style(i) for i in range(72)]
+            assert style.prey_style(i)[1] != style.prey_style(j)[1], (i, j)
+    styles = [style.prey_style(i) for i in range(72)]
     assert len(set(styles)) == 72
 
 
@@ -108,8 +109,8 @@ def test_hatch_lines_contrast_with_their_fill():
     def luminance(c):
         return float(linear_rgb(c) @ np.array([0.2126, 0.7152, 0.0722]))
 
-    for colour in figs.PALETTE:
-        a, b = sorted([luminance(colour), luminance(figs.hatch_colour(colour))])
+    for colour in style.PALETTE:
+        a, b = sorted([luminance(colour), luminance(style.hatch_colour(colour))])
         assert (b + 0.05) / (a + 0.05) >= 3, colour
 
 
@@ -211,23 +212,23 @@ def test_png_is_reproducible_and_carries_only_its_resolution(injury_result):
     time chunk, and its pHYs chunk gives the resolution asked for in pixels per
     metre (200 dpi = 7874 px/m; PNG specification, pHYs and tEXt chunks)."""
     fig = figs.decision_figure(injury_result.scenarios[0])
-    a, b = figs.png_bytes(fig), figs.png_bytes(fig)
+    a, b = style.png_bytes(fig), style.png_bytes(fig)
     assert a == b
     chunks = png_chunks(a)
     assert b"tIME" not in chunks
     assert all(b"Software" not in t for t in chunks.get(b"tEXt", []))
     x, y, unit = struct.unpack(">IIB", chunks[b"pHYs"][0])
-    assert unit == 1 and x == y == round(figs.DPI_BRIEF / 0.0254)
+    assert unit == 1 and x == y == round(style.DPI_BRIEF / 0.0254)
     (width, height) = struct.unpack(">II", chunks[b"IHDR"][0][:8])
     w_in, h_in = fig.get_size_inches()
-    assert (width, height) == (round(w_in * figs.DPI_BRIEF), round(h_in * figs.DPI_BRIEF))
+    assert (width, height) == (round(w_in * style.DPI_BRIEF), round(h_in * style.DPI_BRIEF))
 
 
 def test_svg_is_reproducible_and_undated(injury_result):
     """SVG output has no date and fixed element ids, so two renderings are
     identical (common practice for reproducible documents)."""
     fig = figs.kills_figure(injury_result)
-    a, b = figs.svg_bytes(fig), figs.svg_bytes(fig)
+    a, b = style.svg_bytes(fig), style.svg_bytes(fig)
     assert a == b
     assert b"<svg" in a and b"<dc:date>" not in a
 
@@ -256,7 +257,7 @@ def test_write_figures_writes_png_and_svg_and_never_overwrites(tmp_path, injury_
 def test_long_prey_names_are_shortened_on_axes_only():
     """Axis labels shorten names longer than 26 characters with an ellipsis;
     short names stay as they are (common practice; tables carry names in full)."""
-    assert figs.short_label("forest deer") == "forest deer"
+    assert style.short_label("forest deer") == "forest deer"
     long = "prey type number 1 with a rather long descriptive name"
-    short = figs.short_label(long)
+    short = style.short_label(long)
     assert len(short) <= 26 and short.endswith("…") and long.startswith(short[:-1].strip())

@@ -48,7 +48,7 @@ VectorisedModel = Callable[[np.ndarray], np.ndarray]
 
 
 class HasPpf(Protocol):
-    """Anything with an inverse CDF, e.g. :class:`riskdiet.stats.ranges.Range`."""
+    """Anything with an inverse CDF, e.g. :class:`riskdiet.core.stats.ranges.Range`."""
 
     def ppf(self, u: np.ndarray) -> np.ndarray: ...  # pragma: no cover
 
@@ -179,7 +179,7 @@ def sobol_analysis(
         returns outcomes of shape (s, m) or (m,).
     ranges : sequence
         One distribution per input with a ``ppf`` method (e.g.
-        :class:`riskdiet.stats.ranges.Range`).
+        :class:`riskdiet.core.stats.ranges.Range`).
     n : int
         Requested base sample size; rounded up to a power of two, the model
         is evaluated n (d + 2) times.

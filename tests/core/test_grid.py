@@ -16,7 +16,7 @@ from conftest import grid_of, injury_raw
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from riskdiet.grid import attack_probabilities, outcomes, rank_attacks, split, targets
+from riskdiet.core.grid import attack_probabilities, outcomes, rank_attacks, split, targets
 
 
 def _enumerated(meet: list[float], rank: list[int]) -> list[float]:

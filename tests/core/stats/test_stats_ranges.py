@@ -15,8 +15,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
+from riskdiet.core.stats.ranges import Range, draw_values, latin_hypercube, round_half_up
 from riskdiet.errors import RiskdietError, StudyError
-from riskdiet.stats.ranges import Range, draw_values, latin_hypercube, round_half_up
 
 FAST = settings(max_examples=60, deadline=None)
 U = np.linspace(0.0, 1.0, 201)

@@ -26,11 +26,11 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from simulation import process_of, simulate_breeding, simulate_season, wilson_interval
 
-from riskdiet import solver
-from riskdiet.grid import make_grid
+from riskdiet.core import solver
+from riskdiet.core.grid import make_grid
+from riskdiet.core.solver import solve_grid
 from riskdiet.io import load_study
 from riskdiet.model import Predator, Prey
-from riskdiet.solver import solve_grid
 from riskdiet.validation import build_study
 
 INVARIANTS = settings(max_examples=40, deadline=None)

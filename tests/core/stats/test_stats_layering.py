@@ -13,7 +13,8 @@ import sys
 MODULES = ["ranges", "sensitivity", "probability_words", "composition_likelihood",
            "goodness_of_fit", "profile_interval"]
 FORBIDDEN = ["pandas", "openpyxl", "reportlab", "matplotlib", "typer", "riskdiet.model",
-             "riskdiet.solver", "riskdiet.analysis", "riskdiet.validation", "riskdiet.batch"]
+             "riskdiet.core.solver", "riskdiet.analysis.study", "riskdiet.validation",
+             "riskdiet.core.batch"]
 
 
 def test_stats_modules_import_only_numpy_scipy_and_errors():
@@ -21,7 +22,7 @@ def test_stats_modules_import_only_numpy_scipy_and_errors():
     modules (checked in sys.modules, so indirect imports count too)."""
     code = (
         "import sys\n"
-        + "".join(f"import riskdiet.stats.{m}\n" for m in MODULES)
+        + "".join(f"import riskdiet.core.stats.{m}\n" for m in MODULES)
         + f"print(sorted(m for m in {FORBIDDEN!r} if m in sys.modules))\n"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,

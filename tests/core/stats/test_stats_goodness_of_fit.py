@@ -24,8 +24,7 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from riskdiet.errors import RiskdietError
-from riskdiet.stats.goodness_of_fit import (
+from riskdiet.core.stats.goodness_of_fit import (
     bootstrap_p_value,
     g_test_of_fit,
     homogeneity_g_test,
@@ -33,6 +32,7 @@ from riskdiet.stats.goodness_of_fit import (
     parametric_bootstrap_p,
     replicate_generators,
 )
+from riskdiet.errors import RiskdietError
 
 FAST = settings(max_examples=60, deadline=None)
 

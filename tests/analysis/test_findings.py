@@ -6,10 +6,10 @@ import json
 from pathlib import Path
 
 import riskdiet
-from riskdiet.compare import entry_reserves
+from riskdiet.analysis.compare import entry_reserves
 from riskdiet.validation import build_study
 
-EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "harrow-vale.json"
+EXAMPLE = Path(__file__).resolve().parents[2] / "examples" / "harrow-vale.json"
 
 
 def _solve(raw):

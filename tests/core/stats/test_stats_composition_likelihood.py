@@ -18,8 +18,7 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from riskdiet.errors import RiskdietError
-from riskdiet.stats.composition_likelihood import (
+from riskdiet.core.stats.composition_likelihood import (
     LogLikelihood,
     aicc,
     dirichlet_multinomial_log_likelihood,
@@ -28,6 +27,7 @@ from riskdiet.stats.composition_likelihood import (
     poisson_rate_log_likelihood,
     total_log_likelihood,
 )
+from riskdiet.errors import RiskdietError
 
 FAST = settings(max_examples=80, deadline=None)
 

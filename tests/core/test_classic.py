@@ -22,7 +22,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from riskdiet.classic import (
+from riskdiet.core.classic import (
     EXACT_METHOD,
     HEURISTIC_METHOD,
     classic_prey_model,

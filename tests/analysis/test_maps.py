@@ -5,7 +5,7 @@ Puterman, M. L. (1994). Markov Decision Processes. Wiley, ch. 7 (the optimal
 value and policy of a study do not depend on how its solve is organised, so a
 map cell must equal the study solved on its own).
 Kemeny, J. G. & Snell, J. L. (1960). Finite Markov Chains. Van Nostrand (the
-fundamental matrix behind riskdiet.chain.steady_state, the reference for kill
+fundamental matrix behind riskdiet.core.chain.steady_state, the reference for kill
 rates).
 Mangel, M. & Clark, C. W. (1988). Dynamic Modeling in Behavioral Ecology.
 Princeton University Press (backward induction, the season currency).
@@ -20,9 +20,9 @@ Numerical Recipes, 3rd ed. Cambridge University Press, section 5.7 (central
 differences, error O(h^2)).
 Kingman, J. F. C. (1993). Poisson Processes. Oxford University Press, ch. 2
 (superposition: independent Poisson encounter streams add their rates).
-The reference solves are riskdiet.solver.solve_grid on riskdiet.grid.make_grid
+The reference solves are riskdiet.core.solver.solve_grid on riskdiet.core.grid.make_grid
 (tested separately against Feller's ruin problem and an independent simulation),
-riskdiet.chain.steady_state and riskdiet.chain.season_outlook.
+riskdiet.core.chain.steady_state and riskdiet.core.chain.season_outlook.
 """
 
 from __future__ import annotations
@@ -38,13 +38,13 @@ from conftest import EXAMPLE, INJURY_STUDY
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from riskdiet.chain import season_outlook, steady_state
+from riskdiet.analysis.maps import MapRequest, cell_inputs, make_map, parse_axis
+from riskdiet.analysis.regimes import classify
+from riskdiet.core.chain import season_outlook, steady_state
+from riskdiet.core.grid import make_grid
+from riskdiet.core.solver import solve_grid
 from riskdiet.errors import StudyError
-from riskdiet.grid import make_grid
-from riskdiet.maps import MapRequest, cell_inputs, make_map, parse_axis
 from riskdiet.model import BASELINE
-from riskdiet.regimes import classify
-from riskdiet.solver import solve_grid
 from riskdiet.validation import build_study
 
 DEMO = json.loads(EXAMPLE.read_text(encoding="utf-8"))
@@ -139,7 +139,7 @@ def test_breeding_map_cells_equal_single_solves(breeding_map):
 def test_breeding_map_kills_equal_the_chain_steady_state(breeding_map):
     """Kills per predator per year by prey group in sampled cells equal 365
     times the long-run kill rates of the chain with death and breeding resets,
-    summed over the group (Kemeny & Snell 1960, via riskdiet.chain.steady_state;
+    summed over the group (Kemeny & Snell 1960, via riskdiet.core.chain.steady_state;
     MODEL.md section 5), to 1e-12 relative."""
     study, req, result = breeding_map
     cells = [(0, 0), (req.x.steps - 1, 0), (2, 1), (1, req.y.steps - 1),
@@ -175,7 +175,7 @@ def test_season_map_cells_equal_single_solves():
     """Season-currency cells equal their own backward induction (Mangel & Clark
     1988): fitness at the start, marginal value of hunting ability, the day-0
     attack sets (through the regime detail) and the expected kills of the
-    season by group from the forward chain (riskdiet.chain.season_outlook)."""
+    season by group from the forward chain (riskdiet.core.chain.season_outlook)."""
     study = injury_study(24, currency="season", season_days=30)
     req = map_request(study, "deer:injury_chance=0:0.6:4", "hunting_ability=0.5:1.5:3")
     result = make_map(study, req)

@@ -14,7 +14,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from riskdiet.regimes import MERGE_FRACTION, classify
+from riskdiet.analysis.regimes import MERGE_FRACTION, classify
 
 NAMES = ["hare", "deer", "boar"]
 RISKY = np.array([False, True, True])
@@ -53,7 +53,7 @@ def test_one_set_at_every_level_is_named_without_numbers(flags, category):
 def test_one_set_skipping_a_prey_is_named_by_what_is_skipped():
     """With three prey, a set that is neither a whole risk class nor all prey
     is named by the one or two prey it skips (MODEL.md section 7: name the
-    sets; riskdiet.regimes.describe_set; worked by hand)."""
+    sets; riskdiet.analysis.regimes.describe_set; worked by hand)."""
     fr = fractions_of(10, 10)
     skip_boar = classify(np.tile([True, True, False], (10, 1)), RISKY, NAMES, fr)
     assert skip_boar.category == "all but boar at all reserves"
@@ -80,7 +80,7 @@ def test_reserve_dependent_thresholds_are_the_first_level_of_each_new_set():
 
 def test_levels_with_nothing_attacked_at_the_bottom_are_left_out():
     """Levels at the bottom of the grid where nothing is attacked are not a
-    regime of their own (riskdiet.regimes module notes, applied to MODEL.md
+    regime of their own (riskdiet.analysis.regimes module notes, applied to MODEL.md
     section 7): nothing at levels 1-3, then all prey, is "all prey at all
     reserves"; worked by hand."""
     attacked = table(19, [(3, [False, False, False]), (16, [True, True, True])])
@@ -92,7 +92,7 @@ def test_levels_with_nothing_attacked_at_the_bottom_are_left_out():
 def test_short_run_merges_into_its_neighbour_in_the_category_only():
     """A run shorter than MERGE_FRACTION of the levels is a grid detail: the
     category fuses it with the run below (and two equal neighbours then merge),
-    the detail keeps every change (riskdiet.regimes, MERGE_FRACTION; MODEL.md
+    the detail keeps every change (riskdiet.analysis.regimes, MERGE_FRACTION; MODEL.md
     section 7). n = 100, living levels 1..99: all prey at 1-49, low-risk only at
     50-51 (2 levels < ceil(0.05 * 99) = 5), all prey at 52-79, risky only at
     80-99. Worked by hand: category "all prey, then risky prey only" with the
@@ -110,7 +110,7 @@ def test_short_run_merges_into_its_neighbour_in_the_category_only():
 
 def test_short_first_run_merges_into_the_next():
     """A short run at the lowest attacked levels joins the run above it in the
-    category (there is no run below); the detail still shows it (riskdiet.regimes,
+    category (there is no run below); the detail still shows it (riskdiet.analysis.regimes,
     MODEL.md section 7). n = 40: risky only at level 1, all prey at 2-39;
     ceil(0.05 * 39) = 2 levels is the shortest kept run. Worked by hand."""
     attacked = table(39, [(1, [False, True, True]), (38, [True, True, True])])

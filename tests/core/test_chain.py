@@ -1,4 +1,4 @@
-"""Tests of the Markov-chain kill predictions (riskdiet.chain, MODEL.md section 5).
+"""Tests of the Markov-chain kill predictions (riskdiet.core.chain, MODEL.md section 5).
 
 References used below:
 Grinstead, C. M. & Snell, J. L. (1997) Introduction to Probability, 2nd ed.,
@@ -12,7 +12,7 @@ theorem: long-run rate = expected reward per cycle / expected cycle length).
 Kemeny, J. G. & Snell, J. L. (1960) Finite Markov Chains, Van Nostrand
 (stationary distribution as the solution of pi M = pi, sum pi = 1).
 The individual-based simulations live in tests/chain_simulation.py, written
-from MODEL.md independently of riskdiet.grid and riskdiet.chain.
+from MODEL.md independently of riskdiet.core.grid and riskdiet.core.chain.
 """
 
 from __future__ import annotations
@@ -29,16 +29,16 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from riskdiet.chain import (
+from riskdiet.core.chain import (
     absorbing_summary,
     always_absorbed,
     chain_step,
     season_outlook,
     steady_state,
 )
-from riskdiet.grid import make_grid
+from riskdiet.core.grid import make_grid
+from riskdiet.core.solver import solve_grid
 from riskdiet.model import Predator, Prey
-from riskdiet.solver import solve_grid
 
 # --- published fixtures -------------------------------------------------------
 

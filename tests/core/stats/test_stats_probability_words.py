@@ -13,14 +13,14 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from riskdiet.errors import RiskdietError
-from riskdiet.stats.probability_words import (
+from riskdiet.core.stats.probability_words import (
     compare_paired,
     describe_probability,
     format_probability,
     paired_probabilities,
     probability_word,
 )
+from riskdiet.errors import RiskdietError
 
 FAST = settings(max_examples=200, deadline=None)
 

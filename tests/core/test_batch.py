@@ -6,13 +6,13 @@ iteration stops at the unique optimal value whatever policy it starts from;
 started from the greedy policy of the optimal values it stops after one
 evaluation).
 Kemeny, J. G. & Snell, J. L. (1960). Finite Markov Chains. Van Nostrand (the
-fundamental matrix behind riskdiet.chain.steady_state, the reference for kill
+fundamental matrix behind riskdiet.core.chain.steady_state, the reference for kill
 rates here).
 Lande, R. (1979). Evolution 33, 402-416 (selection gradient, the derivative of
 fitness in the trait, here hunting ability).
-The reference solves are riskdiet.solver.solve_breeding (sparse LU via
+The reference solves are riskdiet.core.solver.solve_breeding (sparse LU via
 scipy.sparse.linalg.splu, tested separately against Feller's ruin problem and
-an independent simulation) and riskdiet.chain.steady_state.
+an independent simulation) and riskdiet.core.chain.steady_state.
 """
 
 from __future__ import annotations
@@ -25,10 +25,10 @@ import pytest
 from conftest import grid_of, injury_raw
 from threadpoolctl import threadpool_info, threadpool_limits
 
-from riskdiet import batch
-from riskdiet.chain import steady_state
-from riskdiet.grid import attack_probabilities, stack_grids, take_cells, targets
-from riskdiet.solver import solve_breeding, step_values
+from riskdiet.core import batch
+from riskdiet.core.chain import steady_state
+from riskdiet.core.grid import attack_probabilities, stack_grids, take_cells, targets
+from riskdiet.core.solver import solve_breeding, step_values
 
 LEVELS = 20
 
@@ -107,7 +107,7 @@ def test_batch_fitness_policy_and_gradient_equal_single_solves(cells, solved):
 def test_batch_kill_rates_equal_the_chain_steady_state(cells, solved):
     """Long-run kills per predator per day of every cell equal those of the
     stationary distribution of the chain with death and breeding resets
-    (Kemeny & Snell 1960, via riskdiet.chain.steady_state), to 1e-12 relative."""
+    (Kemeny & Snell 1960, via riskdiet.core.chain.steady_state), to 1e-12 relative."""
     grids, singles = cells
     for b in range(0, len(grids), 7):
         reference = steady_state(grids[b], singles[b]).kills_per_day

@@ -20,13 +20,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from riskdiet.errors import RiskdietError
-from riskdiet.stats.composition_likelihood import multinomial_log_likelihood
-from riskdiet.stats.profile_interval import (
+from riskdiet.core.stats.composition_likelihood import multinomial_log_likelihood
+from riskdiet.core.stats.profile_interval import (
     PROFILE_DROP,
     profile_interval,
     profile_interval_from_grid,
 )
+from riskdiet.errors import RiskdietError
 
 
 def test_drop_is_half_the_chi_square_quantile():

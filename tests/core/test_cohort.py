@@ -19,12 +19,12 @@ from chain_simulation import simulate_cohort
 from conftest import grid_of, injury_raw
 from simulation import wilson_interval
 
-from riskdiet.chain import steady_state
-from riskdiet.cohort import released_cohort
-from riskdiet.grid import make_grid
+from riskdiet.analysis.predictions import cohort_kills
+from riskdiet.core.chain import steady_state
+from riskdiet.core.cohort import released_cohort
+from riskdiet.core.grid import make_grid
+from riskdiet.core.solver import solve_grid
 from riskdiet.model import Predator, Prey
-from riskdiet.predictions import cohort_kills
-from riskdiet.solver import solve_grid
 
 
 def walk(up: float, start: int, levels: int = 400):

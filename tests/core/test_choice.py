@@ -17,11 +17,12 @@ from conftest import injury_raw
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from riskdiet import analysis, solver
-from riskdiet.chain import steady_state
-from riskdiet.choice import better
+from riskdiet.analysis import study as analysis
+from riskdiet.core import solver
+from riskdiet.core.chain import steady_state
+from riskdiet.core.choice import better
+from riskdiet.core.grid import make_grid
 from riskdiet.errors import SolveError
-from riskdiet.grid import make_grid
 from riskdiet.model import Predator, Prey
 from riskdiet.validation import build_study
 
@@ -122,7 +123,7 @@ def test_a_long_season_keeps_foraging_where_values_underflow():
     grid = make_grid(pred, (Prey(**HARE),))
     sol = solver.solve_season(grid)
     assert (sol.priority[0, grid.living, 0] >= 0).all()
-    from riskdiet.chain import season_outlook
+    from riskdiet.core.chain import season_outlook
 
     assert season_outlook(grid, sol).expected_kills[0] > 1.0
 

@@ -20,9 +20,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
+from riskdiet.core.stats.ranges import Range
+from riskdiet.core.stats.sensitivity import elasticities, power_of_two_at_least, sobol_analysis
 from riskdiet.errors import RiskdietError
-from riskdiet.stats.ranges import Range
-from riskdiet.stats.sensitivity import elasticities, power_of_two_at_least, sobol_analysis
 
 A, B = 7.0, 0.1
 PI_RANGE = Range(-math.pi, math.pi)

@@ -8,9 +8,9 @@ import numpy as np
 import pytest
 
 import riskdiet
-from riskdiet.compare import comparison_table, entry_reserves
+from riskdiet.analysis.compare import comparison_table, entry_reserves
 
-EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "harrow-vale.json"
+EXAMPLE = Path(__file__).resolve().parents[2] / "examples" / "harrow-vale.json"
 
 
 @pytest.fixture(scope="module")
