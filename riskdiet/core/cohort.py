@@ -20,6 +20,10 @@ healthy).
 Season currency: the season's own forward propagation
 (:func:`riskdiet.core.chain.season_outlook`) over the season; no breeding events.
 
+Many cells (map cells, scenarios, draws) are pushed forward together: their
+transitions form one block-diagonal sparse matrix per step length, so each day
+costs one sparse product per step length for the whole batch.
+
 References
 ----------
 .. [1] Caswell, H. (2001). Matrix Population Models, 2nd ed. Sinauer
@@ -31,15 +35,14 @@ References
 from __future__ import annotations
 
 import dataclasses
-import math
 from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
 
-from riskdiet.core.chain import kill_probabilities, season_outlook
-from riskdiet.core.grid import Grid, attack_probabilities, outcomes, targets
-from riskdiet.core.solver import Solution, transition_matrix
+from riskdiet.core.chain import season_outlook
+from riskdiet.core.grid import Grid, Outcome, attack_probabilities, outcomes, stack_grids, targets
+from riskdiet.core.solver import Solution
 from riskdiet.errors import RiskdietError
 
 
@@ -73,44 +76,165 @@ class CohortOutlook:
     @property
     def median_survival_days(self) -> int | None:
         """Smallest whole day t <= L with S(t) <= 1/2; None when none (over L days)."""
-        below = np.flatnonzero(self.alive_by_day <= 0.5)
-        return int(below[0]) if below.size else None
+        return median_day(self.alive_by_day)
 
 
-def _moves(grid: Grid, priority: np.ndarray
-           ) -> tuple[np.ndarray, list[tuple[int, sp.csr_matrix, np.ndarray]]]:
-    """Kill chances and the one-step moves of the chain, grouped by step length.
+def median_day(alive_by_day: np.ndarray) -> int | None:
+    """Smallest whole day t with S(t) <= 1/2, or None (MODEL.md section 5)."""
+    below = np.flatnonzero(np.asarray(alive_by_day) <= 0.5)
+    return int(below[0]) if below.size else None
 
-    Returns
-    -------
-    kill : ndarray, shape (2m, P)
-    moves : list of (length, transposed transitions, breeding chance)
-        For each whole number of days a step can last: the transposed
-        transitions among living states of steps of that length, shape
-        (2m, 2m), and their chance of reaching breeding condition, shape (2m,).
+
+@dataclass(frozen=True)
+class CohortBatch:
+    """The released cohort of every cell of a batch, per released animal.
+
+    Attributes
+    ----------
+    kills : ndarray, shape (B, P)
+    alive_by_day : ndarray, shape (B, L + 1)
+    breeding_events : ndarray, shape (B,)
     """
-    tg = targets(grid)
-    attack_prob = attack_probabilities(grid.encounter_prob, priority)
-    parts = outcomes(grid, tg, attack_prob)
-    handling = np.asarray(grid.handling, dtype=float)
+
+    horizon_days: int
+    kills: np.ndarray
+    alive_by_day: np.ndarray
+    breeding_events: np.ndarray
+
+    def cell(self, b: int) -> CohortOutlook:
+        return CohortOutlook(self.horizon_days, self.kills[b], self.alive_by_day[b],
+                             float(self.breeding_events[b]))
+
+
+def _split_by_length(parts: list[Outcome], handling: np.ndarray) -> dict[int, list[Outcome]]:
+    """The step's outcomes grouped by how many whole days the step lasts (exact clock)."""
     whole = np.floor(handling)
     frac = handling - whole
-    by_length: dict[int, list] = {}
+    by_length: dict[int, list[Outcome]] = {}
     for o in parts:
         if not o.captured:
             by_length.setdefault(1, []).append(o)
             continue
         for extra, share in ((1, 1.0 - frac), (2, frac)):
-            for length in np.unique(whole[share > 0] + extra):
-                weight = np.where((whole + extra == length) & (share > 0), share, 0.0)
+            lengths = whole + extra
+            for length in np.unique(lengths[share > 0]):
+                weight = np.where((lengths == length) & (share > 0), share, 0.0)
                 by_length.setdefault(int(length), []).append(
-                    dataclasses.replace(o, prob=o.prob * weight))
-    moves = []
-    for length in sorted(by_length):
-        matrix, breed = transition_matrix(grid, by_length[length])
-        moves.append((length, matrix.T.tocsr(), breed))
-    kill = kill_probabilities(grid, attack_prob).reshape(-1, grid.n_prey)
-    return kill, moves
+                    dataclasses.replace(o, prob=o.prob * weight[..., None, None, :]))
+    return by_length
+
+
+def _block_moves(grid: Grid, parts: list[Outcome]) -> tuple[sp.csr_matrix, np.ndarray]:
+    """Transposed block-diagonal transitions among living states and the breeding chance.
+
+    States of cell b are numbered b S + k m + (j - 1), S = 2m.
+
+    Returns
+    -------
+    moves_t : csr_matrix, shape (B S, B S)
+        Entry (target, source): the chance of moving from source to target.
+    breed : ndarray, shape (B S,)
+    """
+    m = grid.n_living
+    size = 2 * m
+    batch = parts[0].prob.shape[0]
+    cell = np.arange(batch)[:, None, None, None] * size
+    state = (np.arange(2)[:, None] * m + np.arange(m)[None, :])[None, :, :, None]
+    rows, cols, vals, b_idx, b_vals = [], [], [], [], []
+    for o in parts:
+        src = np.broadcast_to(cell + state, o.prob.shape)
+        for level, wt in ((o.split.low, 1.0 - o.split.weight), (o.split.low + 1, o.split.weight)):
+            level = np.broadcast_to(level, o.prob.shape)
+            mass = o.prob * wt
+            alive = (mass > 0) & (level >= 1) & (level < grid.top)
+            top = (mass > 0) & (level >= grid.top)
+            healthy = mass * o.healthy_share
+            for cond, val in ((0, healthy), (1, mass - healthy)):
+                target = np.broadcast_to(cell + cond * m + level - 1, o.prob.shape)
+                keep = alive & (val > 0)
+                rows.append(target[keep])
+                cols.append(src[keep])
+                vals.append(val[keep])
+            b_idx.append(src[top])
+            b_vals.append(mass[top])
+    total = batch * size
+    moves_t = sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                            shape=(total, total))
+    breed = np.bincount(np.concatenate(b_idx), np.concatenate(b_vals), minlength=total)
+    return moves_t, breed
+
+
+def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortBatch:
+    """Forward propagation of one released animal per cell, over the planning horizon.
+
+    Parameters
+    ----------
+    grid : Grid
+        A stacked grid (:func:`riskdiet.core.grid.stack_grids`), breeding currency.
+    priority : ndarray of int, shape (B, 2, m, P)
+        The optimal ranked attack sets on living levels of each cell.
+    horizon_days : int
+        L [day].
+
+    Returns
+    -------
+    CohortBatch
+
+    Notes
+    -----
+    The mass of animals starting a step on day t, a_t over the living states,
+    starts as the unit mass at (j0, healthy). Each step moves it with the
+    transitions of steps of each length to day t + length [1]_; the breeding
+    mass of a step re-enters at (j_rho, healthy) on its end day. The chance of
+    being alive on day t adds the mass starting a step on t and the mass in
+    the middle of a step it will survive.
+    """
+    if grid.currency != "breeding":
+        raise RiskdietError("cohort_batch covers the breeding currency; the season currency "
+                            "uses the season propagation")
+    if horizon_days < 1:
+        raise RiskdietError(f"the horizon must be at least 1 day, found {horizon_days}")
+    batch = grid.cost.shape[0]
+    m, n_prey = grid.n_living, grid.n_prey
+    size = 2 * m
+    tg = targets(grid)
+    attack_prob = attack_probabilities(grid.encounter_prob, np.asarray(priority, dtype=np.intp))
+    parts = outcomes(grid, tg, attack_prob)
+    alive_step = (1.0 - grid.mortality)[..., :, None, None]
+    kill = (alive_step * attack_prob * (1.0 - grid.fatality)[..., None, None, :]
+            * grid.capture[..., :, None, :]).reshape(batch, size, n_prey)
+    moves = [(length, *_block_moves(grid, group))
+             for length, group in sorted(_split_by_length(parts, grid.handling).items())]
+    longest = max(length for length, _, _ in moves)
+    offset = np.arange(batch) * size
+    restart = offset + grid.after_breeding_level - 1
+    arrivals = np.zeros((horizon_days + longest + 1, batch * size))
+    arrivals[0, offset + grid.start_level - 1] = 1.0
+    transit = np.zeros((horizon_days + longest + 2, batch))  # mass mid-step, difference array
+    kills = np.zeros((batch, n_prey))
+    breeding = np.zeros(batch)
+    for t in range(horizon_days):
+        mass = arrivals[t]
+        kills += np.einsum("bs,bsp->bp", mass.reshape(batch, size), kill)
+        for length, moves_t, breed in moves:
+            end = t + length
+            flow = moves_t @ mass
+            bred = (breed * mass).reshape(batch, size).sum(1)
+            arrivals[end] += flow
+            arrivals[end, restart] += bred
+            if end <= horizon_days:
+                breeding += bred
+            if length > 1:
+                moved = flow.reshape(batch, size).sum(1) + bred
+                transit[t + 1] += moved
+                transit[end] -= moved
+    in_transit = np.cumsum(transit, axis=0)[: horizon_days + 1]
+    alive = arrivals[: horizon_days + 1].reshape(horizon_days + 1, batch, size).sum(2)
+    alive = np.clip((alive + in_transit).T, 0.0, 1.0)  # rounding only: mass never exceeds one
+    if not (np.all(np.isfinite(alive)) and np.all(np.isfinite(kills))
+            and np.all(np.isfinite(breeding))):
+        raise RiskdietError("the released cohort's propagation produced an invalid number")
+    return CohortBatch(horizon_days, kills, alive, breeding)
 
 
 def released_cohort(grid: Grid, solution: Solution, horizon_days: int) -> CohortOutlook:
@@ -129,50 +253,11 @@ def released_cohort(grid: Grid, solution: Solution, horizon_days: int) -> Cohort
     -------
     CohortOutlook
         Per released animal; multiply by the number released for the cohort.
-
-    Notes
-    -----
-    The mass of animals starting a step on day t, a_t over the living states,
-    starts as the unit mass at (j0, healthy). Each step moves it with the
-    transitions of steps of each length to day t + length [1]_; the breeding
-    mass of a step re-enters at (j_rho, healthy) on its end day. The chance of
-    being alive on day t adds the mass starting a step on t and the mass in
-    the middle of a step it will survive.
     """
     if grid.currency == "season":
         out = season_outlook(grid, solution)
         return CohortOutlook(grid.season_days, np.asarray(out.expected_kills, dtype=float),
                              np.asarray(out.survival_by_day, dtype=float), None)
-    if horizon_days < 1:
-        raise RiskdietError(f"the horizon must be at least 1 day, found {horizon_days}")
-    kill, moves = _moves(grid, solution.living_priority(grid))
-    longest = max(length for length, _, _ in moves)
-    size = 2 * grid.n_living
-    restart = grid.after_breeding_level - 1
-    arrivals = np.zeros((horizon_days + longest + 1, size))
-    arrivals[0, grid.start_level - 1] = 1.0
-    transit = np.zeros(horizon_days + longest + 2)  # difference array of mass mid-step
-    kills = np.zeros(grid.n_prey)
-    breeding = 0.0
-    for t in range(horizon_days):
-        mass = arrivals[t]
-        if not mass.any():
-            continue
-        kills += mass @ kill
-        for length, moves_t, breed in moves:
-            end = t + length
-            flow = moves_t @ mass
-            bred = float(breed @ mass)
-            arrivals[end] += flow
-            arrivals[end, restart] += bred
-            if end <= horizon_days:
-                breeding += bred
-            if length > 1:
-                transit[t + 1] += flow.sum() + bred
-                transit[end] -= flow.sum() + bred
-    in_transit = np.cumsum(transit)[: horizon_days + 1]
-    alive = arrivals[: horizon_days + 1].sum(1) + in_transit
-    alive = np.clip(alive, 0.0, 1.0)  # rounding only: the mass can never exceed one
-    if not (np.all(np.isfinite(alive)) and np.all(np.isfinite(kills)) and math.isfinite(breeding)):
-        raise RiskdietError("the released cohort's propagation produced an invalid number")
-    return CohortOutlook(horizon_days, kills, alive, breeding)
+    single = cohort_batch(stack_grids([grid]), solution.living_priority(grid)[None],
+                          horizon_days)
+    return single.cell(0)

@@ -1,0 +1,336 @@
+"""One entry point for many complete solves: map cells, uncertainty draws, fitting searches.
+
+A *cell* is a scenario of the study with some inputs replaced. Cells of equal
+shape are solved together in array operations (batched policy iteration,
+batched season induction, batched cohort propagation), in chunks that an
+optional :class:`concurrent.futures.Executor` (a process pool or a Dask
+client's executor) runs in parallel. Every cell comes back with its complete
+numbers — fitness, the value of hunting ability, long-run kills, the released
+cohort's kills, survival and breeding, the diet at the start reserves — or
+with the reason its solve failed, so a caller can name every failing cell.
+
+Each cell equals the single-study solve of its own inputs (MODEL.md section 3:
+the same default policy and strict-improvement rule; batching changes nothing
+but speed), and the results do not depend on the executor or the chunking.
+
+References
+----------
+.. [1] Puterman, M. L. (1994). Markov Decision Processes. Wiley, ch. 7.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Sequence
+from concurrent.futures import Executor
+from dataclasses import dataclass
+
+import numpy as np
+
+from riskdiet.core.batch import SUB_BATCH, solve_breeding_batch
+from riskdiet.core.classic import classic_prey_model
+from riskdiet.core.cohort import cohort_batch, median_day
+from riskdiet.core.grid import make_grids, shape_key
+from riskdiet.core.season_batch import solve_season_batch
+from riskdiet.errors import RiskdietError, StudyError
+from riskdiet.fields import INTEGER, field_specs
+from riskdiet.model import BASELINE, Predator, Prey, Study, apply_changes, round_half_up
+from riskdiet.validation import check_values
+
+DAYS_PER_YEAR = 365.0
+SHARE = "encounter_share"
+
+BASELINE_STAGE = "baseline"
+"""The value replaces the baseline input before the scenario's changes apply."""
+FINAL_STAGE = "final"
+"""The value replaces the scenario's final input (after its changes)."""
+
+
+@dataclass(frozen=True)
+class InputChange:
+    """One input of a cell set to a value.
+
+    Attributes
+    ----------
+    prey : str or None
+        Prey name, or None for a predator field.
+    field : str
+        A numeric field name, or ``encounter_share`` (that prey's share of all
+        expected encounters, the others rescaled so the total stays fixed).
+    value : float
+        The value [the field's unit]; whole-number fields are rounded half up.
+    stage : str
+        ``baseline`` (replaces the baseline value; a scenario's ``scale`` or
+        ``add`` then acts on it and its ``set`` overrides it) or ``final``
+        (replaces the scenario's final value), MODEL.md section 9.
+    """
+
+    prey: str | None
+    field: str
+    value: float
+    stage: str = FINAL_STAGE
+
+    @property
+    def name(self) -> str:
+        """``FIELD`` or ``PREY:FIELD``, as the issue texts and JSON name inputs."""
+        return f"{self.prey}:{self.field}" if self.prey else self.field
+
+
+@dataclass(frozen=True)
+class Cell:
+    """A scenario with some inputs replaced.
+
+    Attributes
+    ----------
+    scenario : str
+        Scenario name (``baseline`` for the study as entered).
+    changes : tuple of InputChange
+    label : str
+        How the cell is named in messages, e.g. ``draw 17`` or a map cell's
+        coordinates; its input values are added to failure messages.
+    """
+
+    scenario: str = BASELINE
+    changes: tuple[InputChange, ...] = ()
+    label: str = ""
+
+
+@dataclass(frozen=True)
+class CellResult:
+    """Complete numbers of one cell, or why it has none.
+
+    Attributes
+    ----------
+    label : str
+        The cell's label.
+    failure : str or None
+        None when the solve is exact; else what went wrong (the numbers are
+        then NaN and must not be shown).
+    currency : str
+    fitness_at_start : float
+        V(j0, healthy) [probability].
+    marginal_hunting_ability : float
+        dV(j0, healthy)/da, policy held fixed.
+    kills_per_predator_per_year : ndarray, shape (P,)
+        Long-run kills per place kept filled per year (season currency: per
+        predator over the season) [kills].
+    cohort_kills : ndarray, shape (P,)
+        Expected kills by the whole released cohort within the horizon.
+    cohort_alive_at_horizon : float
+        Chance that one released animal is alive at the horizon.
+    cohort_breeding_events : float or None
+        Expected breeding events of the cohort within the horizon (None: season).
+    cohort_median_survival_days : int or None
+    attacked_at_start : ndarray of bool, shape (P,)
+        Whether a healthy animal at the start reserves attacks each prey.
+    classic_diet : ndarray of bool, shape (P,)
+        Charnov's rate-maximising diet for the cell's inputs.
+    """
+
+    label: str
+    failure: str | None
+    currency: str
+    fitness_at_start: float
+    marginal_hunting_ability: float
+    kills_per_predator_per_year: np.ndarray
+    cohort_kills: np.ndarray
+    cohort_alive_at_horizon: float
+    cohort_breeding_events: float | None
+    cohort_median_survival_days: int | None
+    attacked_at_start: np.ndarray
+    classic_diet: np.ndarray
+
+    @property
+    def ok(self) -> bool:
+        return self.failure is None
+
+
+def set_input(predator: Predator, prey: tuple[Prey, ...], prey_name: str | None, field: str,
+              value: float) -> tuple[Predator, tuple[Prey, ...]]:
+    """Inputs with one field set to ``value`` (``set`` semantics; see :class:`InputChange`)."""
+    if prey_name is None:
+        spec = field_specs(Predator)[field]
+        v = round_half_up(value) if spec.kind == INTEGER else float(value)
+        return dataclasses.replace(predator, **{field: v}), prey
+    index = next(i for i, p in enumerate(prey) if p.name.lower() == prey_name.lower())
+    if field != SHARE:
+        spec = field_specs(Prey)[field]
+        v = round_half_up(value) if spec.kind == INTEGER else float(value)
+        out = list(prey)
+        out[index] = dataclasses.replace(prey[index], **{field: v})
+        return predator, tuple(out)
+    rates = np.array([p.encounters(predator) for p in prey])
+    total = rates.sum()
+    others = total - rates[index]
+    new = rates * ((1.0 - value) * total / others) if others > 0 else np.zeros_like(rates)
+    new[index] = value * total
+    return predator, tuple(dataclasses.replace(p, encounters_per_day=float(m))
+                           for p, m in zip(prey, new, strict=True))
+
+
+def cell_inputs(study: Study, cell: Cell) -> tuple[Predator, tuple[Prey, ...]]:
+    """The predator and prey of a cell, validated.
+
+    Raises
+    ------
+    StudyError
+        When a value, or a scenario change applied to a drawn value, leaves its
+        bounds; the problems name the cell.
+    """
+    predator, prey = study.predator, study.baseline_prey
+    for ch in cell.changes:
+        if ch.stage == BASELINE_STAGE:
+            predator, prey = set_input(predator, prey, ch.prey, ch.field, ch.value)
+    predator, prey, problems = apply_changes(predator, prey, study.scenario(cell.scenario).changes)
+    for ch in cell.changes:
+        if ch.stage == FINAL_STAGE:
+            predator, prey = set_input(predator, prey, ch.prey, ch.field, ch.value)
+    if not problems:
+        problems, _ = check_values(predator, prey,
+                                   lambda f: f"{describe_cell(cell)}: predator.{f}",
+                                   lambda i, f: f"{describe_cell(cell)}: {prey[i].name}.{f}")
+    if problems:
+        raise StudyError(problems)
+    return predator, prey
+
+
+def describe_cell(cell: Cell) -> str:
+    """The cell's label with the values it sets, for messages."""
+    values = ", ".join(f"{c.name} = {c.value:.6g}" for c in cell.changes)
+    name = cell.label or f"scenario {cell.scenario!r}"
+    return f"{name} ({values})" if values else name
+
+
+def _failed(label: str, reason: str, currency: str, n_prey: int) -> CellResult:
+    nan = np.full(n_prey, np.nan)
+    return CellResult(label, reason, currency, np.nan, np.nan, nan, nan, np.nan, None, None,
+                      np.zeros(n_prey, bool), np.zeros(n_prey, bool))
+
+
+def _classic_mask(predator: Predator, prey: tuple[Prey, ...], success: np.ndarray) -> np.ndarray:
+    classic = classic_prey_model(
+        [p.name for p in prey], [p.encounters(predator) for p in prey],
+        [p.energy_mj for p in prey], [p.handling_days for p in prey], success,
+        [p.fatality_chance for p in prey], predator.background_mortality,
+        predator.effective_daily_cost_mj)
+    return np.array([p.name in classic.rate_maximizing_diet for p in prey])
+
+
+def _solve_group(cells: list[Cell], inputs: list[tuple[Predator, tuple[Prey, ...]]],
+                 horizon_days: int) -> list[CellResult]:
+    """Solve cells of one shape together (one batch per ``SUB_BATCH`` cells)."""
+    grid = make_grids(inputs)
+    currency = grid.currency
+    n_prey = grid.n_prey
+    labels = [describe_cell(c) for c in cells]
+    if currency == "breeding":
+        sol = solve_breeding_batch(grid)
+        failures = list(sol.failures)
+        ok = np.array([f is None for f in failures])
+        priority = sol.priority
+        kills_year = sol.kills_per_day * DAYS_PER_YEAR
+        fitness, marginal = sol.fitness_at_start, sol.marginal_hunting_ability
+        cohort = None
+        if ok.any():
+            from riskdiet.core.grid import take_cells
+
+            index = np.flatnonzero(ok)
+            cohort = cohort_batch(take_cells(grid, index), priority[index], horizon_days)
+        cohort_kills = np.full((len(cells), n_prey), np.nan)
+        alive = np.full((len(cells), horizon_days + 1), np.nan)
+        breeding = np.full(len(cells), np.nan)
+        if cohort is not None:
+            cohort_kills[index], alive[index] = cohort.kills, cohort.alive_by_day
+            breeding[index] = cohort.breeding_events
+    else:
+        sol = solve_season_batch(grid)
+        failures = list(sol.failures)
+        priority = sol.priority
+        kills_year = sol.expected_kills
+        fitness, marginal = sol.fitness_at_start, sol.marginal_hunting_ability
+        cohort_kills, alive = sol.expected_kills, sol.survival_by_day
+        breeding = None
+    out = []
+    for b, (predator, prey) in enumerate(inputs):
+        if failures[b] is not None:
+            out.append(_failed(labels[b], failures[b], currency, n_prey))
+            continue
+        animals = predator.cohort_size
+        start = int(grid.start_level[b]) - 1
+        out.append(CellResult(
+            label=labels[b], failure=None, currency=currency,
+            fitness_at_start=float(fitness[b]),
+            marginal_hunting_ability=float(marginal[b]),
+            kills_per_predator_per_year=np.asarray(kills_year[b], dtype=float),
+            cohort_kills=animals * np.asarray(cohort_kills[b], dtype=float),
+            cohort_alive_at_horizon=float(alive[b][-1]),
+            cohort_breeding_events=None if breeding is None else animals * float(breeding[b]),
+            cohort_median_survival_days=median_day(alive[b]),
+            attacked_at_start=np.asarray(priority[b][0, start] >= 0),
+            classic_diet=_classic_mask(predator, prey, grid.capture[b, 0])))
+    return out
+
+
+def _solve_chunk(study: Study, cells: list[Cell]) -> list[CellResult]:
+    """Solve a chunk of cells in this process (one task of an executor)."""
+    horizon = study.settings.horizon_days
+    results: list[CellResult | None] = [None] * len(cells)
+    groups: dict[tuple, list[int]] = {}
+    inputs: dict[int, tuple[Predator, tuple[Prey, ...]]] = {}
+    n_prey = len(study.prey)
+    for i, cell in enumerate(cells):
+        try:
+            inputs[i] = cell_inputs(study, cell)
+        except StudyError as err:
+            reason = "; ".join(str(p) for p in err.problems)
+            results[i] = _failed(describe_cell(cell), f"invalid inputs: {reason}",
+                                 study.predator.currency, n_prey)
+            continue
+        p, q = inputs[i]
+        groups.setdefault((p.currency, p.energy_levels, p.breeding_level, len(q),
+                           p.season_days if p.currency == "season" else 0), []).append(i)
+    for members in groups.values():
+        for lo in range(0, len(members), SUB_BATCH):
+            part = members[lo:lo + SUB_BATCH]
+            solved = _solve_group([cells[i] for i in part], [inputs[i] for i in part], horizon)
+            for i, r in zip(part, solved, strict=True):
+                results[i] = r
+    return results  # type: ignore[return-value]
+
+
+def solve_cells(study: Study, cells: Sequence[Cell], executor: Executor | None = None,
+                chunk: int = 4 * SUB_BATCH) -> list[CellResult]:
+    """Complete numbers for every cell, in input order, each with its status.
+
+    Parameters
+    ----------
+    study : Study
+        A validated study.
+    cells : sequence of Cell
+        Scenarios with inputs replaced (map cells, draws, fitting points).
+    executor : concurrent.futures.Executor, optional
+        Runs chunks of cells in parallel (a process pool or a Dask client's
+        executor); in this process when None. Results do not depend on it.
+    chunk : int
+        Cells per task.
+
+    Returns
+    -------
+    list of CellResult
+        A cell whose solve failed has ``failure`` set and NaN numbers; the
+        caller decides whether that is an error (naming the cell) or a gap.
+    """
+    cells = list(cells)
+    for c in cells:
+        study.scenario(c.scenario)  # an unknown scenario is a programming error: KeyError
+    if chunk < 1:
+        raise RiskdietError(f"chunk must be at least 1, found {chunk}")
+    pieces = [cells[i:i + chunk] for i in range(0, len(cells), chunk)]
+    if executor is None or len(pieces) <= 1:
+        return [r for piece in pieces for r in _solve_chunk(study, piece)]
+    futures = [executor.submit(_solve_chunk, study, piece) for piece in pieces]
+    return [r for f in futures for r in f.result()]
+
+
+__all__ = ["BASELINE_STAGE", "FINAL_STAGE", "Cell", "CellResult", "InputChange", "cell_inputs",
+           "describe_cell", "set_input", "shape_key", "solve_cells"]

@@ -1,0 +1,136 @@
+"""The batched entry point equals single solves, names failing cells, and ignores workers.
+
+References used below:
+Puterman, M. L. (1994). Markov Decision Processes. Wiley, ch. 7 (a batch of
+independent problems solved side by side has each problem's own solution).
+The single-study solvers (riskdiet.analysis.study.solve_scenario) are the
+reference: every number of a cell must equal its single solve to 1e-12
+relative (values, kills) and 1e-10 (derivatives), MODEL.md sections 3-5.
+"""
+
+from __future__ import annotations
+
+from concurrent.futures import ProcessPoolExecutor
+
+import numpy as np
+import pytest
+from conftest import injury_raw
+
+from riskdiet.analysis.cells import (
+    BASELINE_STAGE,
+    FINAL_STAGE,
+    Cell,
+    InputChange,
+    cell_inputs,
+    solve_cells,
+)
+from riskdiet.analysis.study import solve_scenario
+from riskdiet.model import Scenario
+from riskdiet.validation import build_study
+
+
+def _study(**predator):
+    raw = injury_raw(**predator)
+    raw["scenarios"] = [{"name": "cheap boar", "changes": [
+        {"prey": "boar", "field": "encounters_per_day", "change": "scale", "value": 2.0}]}]
+    return build_study(raw)
+
+
+CELLS = [Cell("baseline", (InputChange(None, "hunting_ability", a),), f"cell {i}")
+         for i, a in enumerate(np.linspace(0.4, 1.8, 9))]
+CELLS += [Cell("cheap boar", (InputChange("deer", "capture_success", s, BASELINE_STAGE),
+                              InputChange("boar", "injury_chance", q, FINAL_STAGE)), "mixed")
+          for s in (0.2, 0.35) for q in (0.1, 0.6)]
+
+
+def _single(study, cell):
+    """The reference: the single-study pipeline on the cell's own inputs."""
+    predator, prey = cell_inputs(study, cell)
+    import dataclasses
+
+    one = dataclasses.replace(study, predator=predator, prey=prey,
+                              scenarios=(Scenario("baseline", ()),))
+    return solve_scenario(one, one.scenarios[0])
+
+
+@pytest.mark.parametrize("currency", ["breeding", "season"])
+def test_every_cell_equals_its_single_solve(currency):
+    """Fitness, the value of hunting ability, long-run (or season) kills, the
+    released cohort's kills, survival and breeding, and the diet at the start
+    reserves of every cell equal the single solve of the cell's inputs."""
+    study = _study(currency=currency, season_days=30)
+    results = solve_cells(study, CELLS)
+    for cell, got in zip(CELLS, results, strict=True):
+        assert got.ok, got.failure
+        ref = _single(study, cell)
+        assert got.fitness_at_start == pytest.approx(ref.fitness_at_start, rel=1e-12, abs=1e-300)
+        assert got.marginal_hunting_ability == pytest.approx(ref.marginal_hunting_ability,
+                                                             rel=1e-10, abs=1e-13)
+        names = ref.prey_names
+        long_run = (ref.kills.kills_per_predator_per_year if currency == "breeding"
+                    else ref.season_kills.expected_kills)
+        np.testing.assert_allclose(got.kills_per_predator_per_year,
+                                   [long_run[n] for n in names], rtol=1e-12, atol=1e-14)
+        np.testing.assert_allclose(got.cohort_kills, [ref.cohort.kills[n] for n in names],
+                                   rtol=1e-12, atol=1e-14)
+        assert got.cohort_alive_at_horizon == pytest.approx(ref.cohort.alive_at_horizon,
+                                                            rel=1e-12, abs=1e-15)
+        assert got.cohort_median_survival_days == ref.cohort.median_survival_days
+        if currency == "breeding":
+            assert got.cohort_breeding_events == pytest.approx(ref.cohort.breeding_events,
+                                                               rel=1e-12)
+        j0 = ref.grid.start_level
+        np.testing.assert_array_equal(got.attacked_at_start,
+                                      ref.solution.priority[0, j0] >= 0)
+
+
+def test_a_cell_with_invalid_inputs_is_named_not_solved():
+    """A value out of its bounds (capture success 1.5) makes that cell a failure
+    naming the cell and the value; the other cells are solved."""
+    study = _study()
+    cells = [Cell("baseline", (InputChange("deer", "capture_success", 1.5),), "draw 3"),
+             CELLS[0]]
+    bad, good = solve_cells(study, cells)
+    assert not bad.ok and "draw 3" in bad.label and "capture_success = 1.5" in bad.label
+    assert "capture_success" in bad.failure
+    assert good.ok
+
+
+def test_a_cell_whose_solve_fails_is_reported(monkeypatch):
+    """A batch cell that reaches the iteration limit carries the reason instead of
+    numbers (MODEL.md section 3: never a number shown as if valid)."""
+    from riskdiet.core import batch
+
+    monkeypatch.setattr(batch.solve_breeding_batch, "__defaults__", (None, 1))
+    results = solve_cells(_study(), CELLS[:3])
+    assert all(not r.ok and "did not settle" in r.failure for r in results)
+    assert all(np.isnan(r.fitness_at_start) for r in results)
+
+
+def test_results_do_not_depend_on_workers_or_chunks():
+    """The same cells on a process pool of two workers, in chunks of 3, give
+    identical numbers to the in-process run (each cell is solved independently)."""
+    study = _study()
+    inline = solve_cells(study, CELLS)
+    with ProcessPoolExecutor(2) as pool:
+        pooled = solve_cells(study, CELLS, executor=pool, chunk=3)
+    for a, b in zip(inline, pooled, strict=True):
+        assert a.fitness_at_start == b.fitness_at_start
+        np.testing.assert_array_equal(a.cohort_kills, b.cohort_kills)
+        np.testing.assert_array_equal(a.kills_per_predator_per_year,
+                                      b.kills_per_predator_per_year)
+
+
+def test_results_on_a_dask_cluster_equal_the_inline_run():
+    """A Dask LocalCluster's executor gives the in-process numbers (Dask
+    documentation: Client.get_executor returns a concurrent.futures Executor)."""
+    distributed = pytest.importorskip("distributed")
+    study = _study()
+    inline = solve_cells(study, CELLS[:6])
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False,
+                                  dashboard_address=None) as cluster, \
+            distributed.Client(cluster) as client:
+        remote = solve_cells(study, CELLS[:6], executor=client.get_executor(), chunk=2)
+    for a, b in zip(inline, remote, strict=True):
+        assert a.fitness_at_start == b.fitness_at_start
+        np.testing.assert_array_equal(a.cohort_kills, b.cohort_kills)
