@@ -21,17 +21,26 @@ References
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Sequence
-from concurrent.futures import Executor
+from collections.abc import Callable, Sequence
+from concurrent.futures import Executor, as_completed
 from dataclasses import dataclass
 
 import numpy as np
 
 from riskdiet.core.batch import SUB_BATCH, solve_breeding_batch
+from riskdiet.core.choice import one_step_value, step_values
 from riskdiet.core.classic import classic_prey_model
 from riskdiet.core.cohort import cohort_batch, median_day
-from riskdiet.core.grid import make_grids, shape_key
+from riskdiet.core.grid import (
+    attack_probabilities,
+    make_grid,
+    make_grids,
+    shape_key,
+    take_cells,
+    targets,
+)
 from riskdiet.core.season_batch import solve_season_batch
+from riskdiet.core.solver import solve_season
 from riskdiet.errors import RiskdietError, StudyError
 from riskdiet.fields import INTEGER, field_specs
 from riskdiet.model import BASELINE, Predator, Prey, Study, apply_changes, round_half_up
@@ -88,11 +97,14 @@ class Cell:
     label : str
         How the cell is named in messages, e.g. ``draw 17`` or a map cell's
         coordinates; its input values are added to failure messages.
+    gradient : (prey or None, field), optional
+        A further input whose marginal value (policy held fixed) is wanted.
     """
 
     scenario: str = BASELINE
     changes: tuple[InputChange, ...] = ()
     label: str = ""
+    gradient: tuple[str | None, str] | None = None
 
 
 @dataclass(frozen=True)
@@ -125,6 +137,13 @@ class CellResult:
         Whether a healthy animal at the start reserves attacks each prey.
     classic_diet : ndarray of bool, shape (P,)
         Charnov's rate-maximising diet for the cell's inputs.
+    residual : float
+        Bellman residual relative to the values (0 in the season currency).
+    marginal_extra : float or None
+        dV(j0, healthy)/d(gradient input), policy held fixed, when asked for.
+    policy : ndarray of int8 or None, shape (2, m, P)
+        Ranked attack sets on the living levels (day 0 in the season
+        currency), when asked for (``keep_policy``).
     """
 
     label: str
@@ -139,6 +158,9 @@ class CellResult:
     cohort_median_survival_days: int | None
     attacked_at_start: np.ndarray
     classic_diet: np.ndarray
+    residual: float = 0.0
+    marginal_extra: float | None = None
+    policy: np.ndarray | None = None
 
     @property
     def ok(self) -> bool:
@@ -201,6 +223,74 @@ def describe_cell(cell: Cell) -> str:
     return f"{name} ({values})" if values else name
 
 
+def _shifted(predator: Predator, prey: tuple[Prey, ...], target: tuple[str | None, str],
+             sign: float) -> tuple[tuple[Predator, tuple[Prey, ...]], float]:
+    """Inputs with the gradient input moved by +-delta, delta = 1e-6 max(1, |value|)."""
+    prey_name, field = target
+    if prey_name is None:
+        value = getattr(predator, field)
+        if value is None and field == "daily_cost_mj":
+            value = predator.effective_daily_cost_mj
+    else:
+        rec = next(p for p in prey if p.name.lower() == prey_name.lower())
+        value = getattr(rec, field)
+        if value is None and field == "encounters_per_day":
+            value = rec.encounters(predator)
+    value = float(value or 0.0)
+    step = 1e-6 * max(1.0, abs(value))
+    return set_input(predator, prey, prey_name, field, value + sign * step), step
+
+
+def _policy_fixed_step(grid, values: np.ndarray, priority: np.ndarray) -> np.ndarray:
+    """One Bellman step under a fixed policy, batched: T_pi(V), shape (B, 2, m)."""
+    tg = targets(grid)
+    cap = (values.shape[0], grid.n_prey, *values.shape[1:])
+    ignore, attack, _ = step_values(grid, tg, values, np.broadcast_to(values[:, None], cap))
+    return one_step_value(grid, ignore, attack, attack_probabilities(grid.encounter_prob,
+                                                                     priority))
+
+
+def _breeding_extra(inputs: list[tuple[Predator, tuple[Prey, ...]]],
+                    target: tuple[str | None, str]):
+    """``extra_direct`` for :func:`solve_breeding_batch`: the one-step derivative in the
+    gradient input by a central difference at fixed values and policy."""
+    shifted = [(_shifted(*inp, target, +1), _shifted(*inp, target, -1)) for inp in inputs]
+    plus = make_grids([hi[0] for hi, _ in shifted])
+    minus = make_grids([lo[0] for _, lo in shifted])
+    steps = np.array([hi[1] for hi, _ in shifted])
+
+    def extra(idx, values, priority):
+        hi = _policy_fixed_step(take_cells(plus, idx), values, priority)
+        lo = _policy_fixed_step(take_cells(minus, idx), values, priority)
+        return (hi - lo) / (2.0 * steps[idx])[:, None, None]
+    return extra
+
+
+def _season_extra(inputs: tuple[Predator, tuple[Prey, ...]],
+                  target: tuple[str | None, str]) -> float:
+    """Season currency: central difference with the policy of every day held fixed."""
+    (plus, step), (minus, _) = _shifted(*inputs, target, +1), _shifted(*inputs, target, -1)
+    base = solve_season(make_grid(*inputs))
+    return (_fixed_season_value(make_grid(*plus), base)
+            - _fixed_season_value(make_grid(*minus), base)) / (2 * step)
+
+
+def _fixed_season_value(grid, base) -> float:
+    """Season fitness at start of ``grid`` under the day-by-day policy of ``base``."""
+    tg = targets(grid)
+    days = grid.season_days
+    values = np.zeros((days + 1, 2, grid.n + 1))
+    values[days, :, grid.terminal_level:] = 1.0
+    handling = grid.handling.astype(np.intp)
+    for t in range(days - 1, -1, -1):
+        cap_day = np.minimum(t + 1 + handling, days)
+        ignore, attack, _ = step_values(grid, tg, values[t + 1], values[cap_day])
+        prob = attack_probabilities(grid.encounter_prob,
+                                    base.priority_by_day[t][:, 1:].astype(np.int64))
+        values[t, :, 1:] = one_step_value(grid, ignore, attack, prob)
+    return float(values[0, 0, grid.start_level])
+
+
 def _failed(label: str, reason: str, currency: str, n_prey: int) -> CellResult:
     nan = np.full(n_prey, np.nan)
     return CellResult(label, reason, currency, np.nan, np.nan, nan, nan, np.nan, None, None,
@@ -217,31 +307,37 @@ def _classic_mask(predator: Predator, prey: tuple[Prey, ...], success: np.ndarra
 
 
 def _solve_group(cells: list[Cell], inputs: list[tuple[Predator, tuple[Prey, ...]]],
-                 horizon_days: int) -> list[CellResult]:
+                 horizon_days: int, keep_policy: bool, cohort: bool = True
+                 ) -> list[CellResult]:
     """Solve cells of one shape together (one batch per ``SUB_BATCH`` cells)."""
     grid = make_grids(inputs)
     currency = grid.currency
     n_prey = grid.n_prey
     labels = [describe_cell(c) for c in cells]
+    gradient = cells[0].gradient
+    extra = [None] * len(cells)
+    residual = np.zeros(len(cells))
     if currency == "breeding":
-        sol = solve_breeding_batch(grid)
+        sol = solve_breeding_batch(
+            grid, None if gradient is None else _breeding_extra(inputs, gradient))
+        residual = sol.residual
+        if sol.marginal_extra is not None:
+            extra = [float(x) for x in sol.marginal_extra]
         failures = list(sol.failures)
         ok = np.array([f is None for f in failures])
         priority = sol.priority
         kills_year = sol.kills_per_day * DAYS_PER_YEAR
         fitness, marginal = sol.fitness_at_start, sol.marginal_hunting_ability
-        cohort = None
-        if ok.any():
-            from riskdiet.core.grid import take_cells
-
+        released = None
+        if ok.any() and cohort:
             index = np.flatnonzero(ok)
-            cohort = cohort_batch(take_cells(grid, index), priority[index], horizon_days)
+            released = cohort_batch(take_cells(grid, index), priority[index], horizon_days)
         cohort_kills = np.full((len(cells), n_prey), np.nan)
         alive = np.full((len(cells), horizon_days + 1), np.nan)
         breeding = np.full(len(cells), np.nan)
-        if cohort is not None:
-            cohort_kills[index], alive[index] = cohort.kills, cohort.alive_by_day
-            breeding[index] = cohort.breeding_events
+        if released is not None:
+            cohort_kills[index], alive[index] = released.kills, released.alive_by_day
+            breeding[index] = released.breeding_events
     else:
         sol = solve_season_batch(grid)
         failures = list(sol.failures)
@@ -250,6 +346,9 @@ def _solve_group(cells: list[Cell], inputs: list[tuple[Predator, tuple[Prey, ...
         fitness, marginal = sol.fitness_at_start, sol.marginal_hunting_ability
         cohort_kills, alive = sol.expected_kills, sol.survival_by_day
         breeding = None
+        if gradient is not None:
+            extra = [None if failures[b] else _season_extra(inputs[b], gradient)
+                     for b in range(len(cells))]
     out = []
     for b, (predator, prey) in enumerate(inputs):
         if failures[b] is not None:
@@ -267,11 +366,14 @@ def _solve_group(cells: list[Cell], inputs: list[tuple[Predator, tuple[Prey, ...
             cohort_breeding_events=None if breeding is None else animals * float(breeding[b]),
             cohort_median_survival_days=median_day(alive[b]),
             attacked_at_start=np.asarray(priority[b][0, start] >= 0),
-            classic_diet=_classic_mask(predator, prey, grid.capture[b, 0])))
+            classic_diet=_classic_mask(predator, prey, grid.capture[b, 0]),
+            residual=float(residual[b]), marginal_extra=extra[b],
+            policy=np.asarray(priority[b], dtype=np.int8) if keep_policy else None))
     return out
 
 
-def _solve_chunk(study: Study, cells: list[Cell]) -> list[CellResult]:
+def _solve_chunk(study: Study, cells: list[Cell], keep_policy: bool = False,
+                 cohort: bool = True) -> list[CellResult]:
     """Solve a chunk of cells in this process (one task of an executor)."""
     horizon = study.settings.horizon_days
     results: list[CellResult | None] = [None] * len(cells)
@@ -288,18 +390,22 @@ def _solve_chunk(study: Study, cells: list[Cell]) -> list[CellResult]:
             continue
         p, q = inputs[i]
         groups.setdefault((p.currency, p.energy_levels, p.breeding_level, len(q),
-                           p.season_days if p.currency == "season" else 0), []).append(i)
+                           p.season_days if p.currency == "season" else 0, cell.gradient),
+                          []).append(i)
     for members in groups.values():
         for lo in range(0, len(members), SUB_BATCH):
             part = members[lo:lo + SUB_BATCH]
-            solved = _solve_group([cells[i] for i in part], [inputs[i] for i in part], horizon)
+            solved = _solve_group([cells[i] for i in part], [inputs[i] for i in part], horizon,
+                                  keep_policy, cohort)
             for i, r in zip(part, solved, strict=True):
                 results[i] = r
     return results  # type: ignore[return-value]
 
 
 def solve_cells(study: Study, cells: Sequence[Cell], executor: Executor | None = None,
-                chunk: int = 4 * SUB_BATCH) -> list[CellResult]:
+                chunk: int = 4 * SUB_BATCH, keep_policy: bool = False,
+                progress: Callable[[int, int], None] | None = None, cohort: bool = True
+                ) -> list[CellResult]:
     """Complete numbers for every cell, in input order, each with its status.
 
     Parameters
@@ -313,6 +419,14 @@ def solve_cells(study: Study, cells: Sequence[Cell], executor: Executor | None =
         executor); in this process when None. Results do not depend on it.
     chunk : int
         Cells per task.
+    keep_policy : bool
+        Return each cell's attack sets (``CellResult.policy``), e.g. for maps.
+    progress : callable, optional
+        ``progress(done_cells, total_cells)`` after each chunk.
+    cohort : bool
+        Compute the released cohort (breeding currency: a day-by-day
+        propagation over the horizon, the costliest part after the policy);
+        without it the cohort numbers are NaN. Maps leave it out.
 
     Returns
     -------
@@ -326,10 +440,25 @@ def solve_cells(study: Study, cells: Sequence[Cell], executor: Executor | None =
     if chunk < 1:
         raise RiskdietError(f"chunk must be at least 1, found {chunk}")
     pieces = [cells[i:i + chunk] for i in range(0, len(cells), chunk)]
+    done = 0
     if executor is None or len(pieces) <= 1:
-        return [r for piece in pieces for r in _solve_chunk(study, piece)]
-    futures = [executor.submit(_solve_chunk, study, piece) for piece in pieces]
-    return [r for f in futures for r in f.result()]
+        out = []
+        for piece in pieces:
+            out += _solve_chunk(study, piece, keep_policy, cohort)
+            done += len(piece)
+            if progress:
+                progress(done, len(cells))
+        return out
+    futures = {executor.submit(_solve_chunk, study, piece, keep_policy, cohort): k
+               for k, piece in enumerate(pieces)}
+    solved: dict[int, list[CellResult]] = {}
+    for future in as_completed(futures):
+        k = futures[future]
+        solved[k] = future.result()
+        done += len(pieces[k])
+        if progress:
+            progress(done, len(cells))
+    return [r for k in range(len(pieces)) for r in solved[k]]
 
 
 __all__ = ["BASELINE_STAGE", "FINAL_STAGE", "Cell", "CellResult", "InputChange", "cell_inputs",

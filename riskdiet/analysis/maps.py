@@ -6,44 +6,38 @@ field (``PREY:FIELD``, e.g. ``upland ewe:density_per_km2``) or a prey's share of
 all expected encounters (``PREY:encounter_share``: the others are rescaled in
 proportion so that the total stays fixed).
 
-Work is split into bands of map rows. Within a band the rows are solved one
-after another, each row's cells together (:mod:`riskdiet.core.batch`), starting
-from the fitness of the rows before (extrapolated); bands are independent and
-run through any :class:`concurrent.futures.Executor` (a local process pool, or
-a Dask cluster's executor).
+Every cell is one cell of the batched entry point
+(:func:`riskdiet.analysis.cells.solve_cells`): cells of equal shape are solved
+together, in chunks that any :class:`concurrent.futures.Executor` (a local
+process pool, or a Dask cluster's executor) runs in parallel, and each cell
+equals the single-study solve of its inputs.
 """
 
 from __future__ import annotations
 
-import dataclasses
 import functools
-import itertools
 import math
 from collections.abc import Callable
-from concurrent.futures import Executor, as_completed
+from concurrent.futures import Executor
 from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.analysis.regimes import classify
-from riskdiet.core.batch import solve_breeding_batch
-from riskdiet.core.chain import season_outlook
-from riskdiet.core.choice import one_step_value, step_values
-from riskdiet.core.grid import (
-    Grid,
-    attack_probabilities,
-    make_grid,
-    make_grids,
-    take_cells,
-    targets,
+from riskdiet.analysis.cells import (
+    FINAL_STAGE,
+    SHARE,
+    Cell,
+    CellResult,
+    InputChange,
+    set_input,
+    solve_cells,
 )
-from riskdiet.core.solver import solve_season
+from riskdiet.analysis.regimes import classify
 from riskdiet.errors import Problem, SolveError, StudyError, describe
 from riskdiet.fields import INTEGER, did_you_mean, field_specs
-from riskdiet.model import BASELINE, Predator, Prey, Study, round_half_up
+from riskdiet.model import BASELINE, Predator, Prey, Study
 from riskdiet.validation import check_values, size_problem
 
-SHARE = "encounter_share"
 DAYS_PER_YEAR = 365.0
 
 
@@ -162,24 +156,7 @@ def parse_axis(spec: str, study: Study, where: str) -> Axis:
 def apply_axis(predator: Predator, prey: tuple[Prey, ...], axis: Axis, value: float
                ) -> tuple[Predator, tuple[Prey, ...]]:
     """Inputs with one axis set to ``value`` (``set`` semantics)."""
-    if axis.prey is None:
-        spec = field_specs(Predator)[axis.field]
-        v = round_half_up(value) if spec.kind == INTEGER else float(value)
-        return dataclasses.replace(predator, **{axis.field: v}), prey
-    index = next(i for i, p in enumerate(prey) if p.name == axis.prey)
-    if axis.field != SHARE:
-        spec = field_specs(Prey)[axis.field]
-        v = round_half_up(value) if spec.kind == INTEGER else float(value)
-        out = list(prey)
-        out[index] = dataclasses.replace(prey[index], **{axis.field: v})
-        return predator, tuple(out)
-    rates = np.array([p.encounters(predator) for p in prey])
-    total = rates.sum()
-    others = total - rates[index]
-    new = rates * ((1.0 - value) * total / others) if others > 0 else np.zeros_like(rates)
-    new[index] = value * total
-    return predator, tuple(dataclasses.replace(p, encounters_per_day=float(m))
-                           for p, m in zip(prey, new, strict=True))
+    return set_input(predator, prey, axis.prey, axis.field, value)
 
 
 @dataclass(frozen=True)
@@ -328,133 +305,31 @@ def cell_inputs(study: Study, request: MapRequest, x: float, y: float,
     return apply_axis(pred, prey, request.y, y)
 
 
-def _gradient_inputs(pred: Predator, prey: tuple[Prey, ...], target: tuple[str | None, str],
-                     sign: float) -> tuple[tuple[Predator, tuple[Prey, ...]], float]:
-    prey_name, field = target
-    if prey_name is None:
-        value = getattr(pred, field)
-        if value is None and field == "daily_cost_mj":
-            value = pred.effective_daily_cost_mj
-    else:
-        rec = next(p for p in prey if p.name == prey_name)
-        value = getattr(rec, field)
-        if value is None and field == "encounters_per_day":
-            value = rec.encounters(pred)
-    value = float(value or 0.0)
-    step = 1e-6 * max(1.0, abs(value))
-    axis = Axis(prey_name, field, 0.0, 1.0, 2)
-    return apply_axis(pred, prey, axis, value + sign * step), step
-
-
-def _policy_fixed_step(grid: Grid, values: np.ndarray, priority: np.ndarray) -> np.ndarray:
-    """One Bellman step under a fixed policy, batched: T_pi(V), shape (B, 2, m)."""
-    tg = targets(grid)
-    n_prey = grid.n_prey
-    ignore, attack, _ = step_values(grid, tg, values,
-                                    np.broadcast_to(values[:, None],
-                                                    (values.shape[0], n_prey, *values.shape[1:])))
-    return one_step_value(grid, ignore, attack, attack_probabilities(grid.encounter_prob, priority))
-
-
 def cell_name(request: MapRequest, x: float, y: float) -> str:
     """How a map cell is named in messages: its two input values."""
     return (f"map cell ({request.x.target} = {x:.6g}, {request.y.target} = {y:.6g}) "
             f"of scenario {request.scenario!r}")
 
 
-def _solve_row(study: Study, request: MapRequest, iy: int) -> dict:
-    """Solve one map row; a cell that fails is an error naming its coordinates."""
-    nx = request.x.steps
-    y = request.y.values[iy]
-    base = study.inputs_for(study.scenario(request.scenario))
-    inputs = [cell_inputs(study, request, x, y, base) for x in request.x.values]
-    out = {k: [None] * nx for k in ("fitness", "marginal", "extra", "kills", "regime_h",
-                                    "regime_i", "detail_h", "detail_i", "residual")}
-    groups: dict[tuple, list[int]] = {}
-    for ix, (p, q) in enumerate(inputs):
-        key = (p.currency, p.energy_levels, p.breeding_level, len(q), p.season_days)
-        groups.setdefault(key, []).append(ix)
-    for key, cells in groups.items():
-        batch = make_grids([inputs[i] for i in cells])
-        if key[0] == "breeding":
-            extra = None
-            if request.gradient is not None:
-                shifted = [(_gradient_inputs(*inputs[i], request.gradient, +1),
-                            _gradient_inputs(*inputs[i], request.gradient, -1)) for i in cells]
-                gp = make_grids([hi[0] for hi, _ in shifted])
-                gm = make_grids([lo[0] for _, lo in shifted])
-                steps = np.array([hi[1] for hi, _ in shifted])
-
-                def extra(idx, values, priority, gp=gp, gm=gm, steps=steps):
-                    hi = _policy_fixed_step(take_cells(gp, idx), values, priority)
-                    lo = _policy_fixed_step(take_cells(gm, idx), values, priority)
-                    return (hi - lo) / (2.0 * steps[idx])[:, None, None]
-            sol = solve_breeding_batch(batch, extra)
-            if sol.failed.size:
-                first = cells[int(sol.failed[0])]
-                raise SolveError(sol.failures[int(sol.failed[0])],
-                                 cell_name(request, request.x.values[first], y)
-                                 + (f" (and {sol.failed.size - 1} more cells of its row)"
-                                    if sol.failed.size > 1 else ""))
-            kills = sol.kills_per_day * DAYS_PER_YEAR
-            for n, i in enumerate(cells):
-                out["fitness"][i] = sol.fitness_at_start[n]
-                out["marginal"][i] = sol.marginal_hunting_ability[n]
-                out["extra"][i] = None if sol.marginal_extra is None else sol.marginal_extra[n]
-                out["kills"][i] = kills[n]
-                out["residual"][i] = sol.residual[n]
-                _regimes(out, i, sol.priority[n] >= 0, inputs[i][1], batch)
-        else:
-            for i in cells:
-                grid = make_grid(*inputs[i])
-                try:
-                    sol = solve_season(grid)
-                except SolveError as err:
-                    raise err.located(cell_name(request, request.x.values[i], y)) from None
-                out["fitness"][i] = sol.fitness_at_start
-                out["marginal"][i] = sol.marginal_hunting_ability
-                out["extra"][i] = (None if request.gradient is None else
-                                   _season_gradient(inputs[i], request.gradient))
-                out["kills"][i] = season_outlook(grid, sol).expected_kills
-                out["residual"][i] = sol.residual
-                _regimes(out, i, sol.living_priority(grid) >= 0, inputs[i][1], grid)
-    out["groups"] = [[p.group for p in inputs[i][1]] for i in range(nx)]
-    return out
+def map_cells(request: MapRequest) -> list[Cell]:
+    """The map's cells, row by row (x varies fastest), for the batched entry point."""
+    return [Cell(request.scenario,
+                 (InputChange(request.x.prey, request.x.field, float(x), FINAL_STAGE),
+                  InputChange(request.y.prey, request.y.field, float(y), FINAL_STAGE)),
+                 cell_name(request, x, y), request.gradient)
+            for y in request.y.values for x in request.x.values]
 
 
-def _season_gradient(inputs, target) -> float:
-    """Season currency: central difference with the policy of every day held fixed."""
-    (plus, step), (minus, _) = (_gradient_inputs(*inputs, target, +1),
-                                _gradient_inputs(*inputs, target, -1))
-    base = solve_season(make_grid(*inputs))
-    return (_fixed_season_value(make_grid(*plus), base)
-            - _fixed_season_value(make_grid(*minus), base)) / (2 * step)
-
-
-def _fixed_season_value(grid: Grid, base) -> float:
-    """Season fitness at start of ``grid`` under the day-by-day policy of ``base``."""
-    tg = targets(grid)
-    days = grid.season_days
-    values = np.zeros((days + 1, 2, grid.n + 1))
-    values[days, :, grid.terminal_level:] = 1.0
-    handling = grid.handling.astype(np.intp)
-    for t in range(days - 1, -1, -1):
-        cap_day = np.minimum(t + 1 + handling, days)
-        ignore, attack, _ = step_values(grid, tg, values[t + 1], values[cap_day])
-        prob = attack_probabilities(grid.encounter_prob,
-                                    base.priority_by_day[t][:, 1:].astype(np.int64))
-        values[t, :, 1:] = one_step_value(grid, ignore, attack, prob)
-    return float(values[0, 0, grid.start_level])
-
-
-def _regimes(out: dict, i: int, attacked: np.ndarray, prey: tuple[Prey, ...],
-             grid: Grid) -> None:
+def _regimes(policy: np.ndarray, prey: tuple[Prey, ...], n: int) -> tuple[str, str, str, str]:
+    """Regime names and details of a healthy and an injured animal from one cell's policy."""
     risky = tuple(p.risky for p in prey)
     names = tuple(p.name for p in prey)
-    for k, (cat, det) in enumerate((("regime_h", "detail_h"), ("regime_i", "detail_i"))):
-        mask = np.ascontiguousarray(attacked[k])
-        out[cat][i], out[det][i] = _classify(mask.tobytes(), mask.shape, risky, names, grid.n,
-                                             int(grid.living[0]))
+    out = []
+    for k in (0, 1):
+        mask = np.ascontiguousarray(policy[k] >= 0)
+        out.append(_classify(mask.tobytes(), mask.shape, risky, names, n, 1))
+    (cat_h, det_h), (cat_i, det_i) = out
+    return cat_h, cat_i, det_h, det_i
 
 
 @functools.lru_cache(maxsize=8192)
@@ -467,89 +342,77 @@ def _classify(mask: bytes, shape: tuple[int, int], risky: tuple[bool, ...],
     return r.category, r.detail
 
 
-def _solve_band(study: Study, request: MapRequest, rows: list[int]) -> list[tuple[int, dict]]:
-    """Solve consecutive map rows (one task for an executor)."""
-    return [(iy, _solve_row(study, request, iy)) for iy in rows]
-
-
 def make_map(study: Study, request: MapRequest, executor: Executor | None = None,
              bands: int | None = None, progress: Callable[[int, int], None] | None = None
              ) -> MapResult:
-    """Solve every cell of a map.
+    """Solve every cell of a map with the batched entry point.
 
     Parameters
     ----------
     study : Study
     request : MapRequest
     executor : concurrent.futures.Executor, optional
-        Runs bands of rows in parallel; inline when None.
+        Runs chunks of cells in parallel; inline when None.
     bands : int, optional
-        Number of independent bands of rows (default: 1 inline, else 4 per
-        worker-ish, at least 2 rows each).
+        Number of chunks of cells (default: 1 inline, else 8 or one per row).
     progress : callable, optional
-        ``progress(done_rows, total_rows)`` after each band.
+        ``progress(done_rows, total_rows)`` as chunks finish.
+
+    Raises
+    ------
+    SolveError
+        Naming the first failing cell by its two input values (and how many
+        more failed); nothing of the map is returned.
     """
     _check_request(study, request)
-    ny = request.y.steps
+    ny, nx = request.y.steps, request.x.steps
+    cells = map_cells(request)
     if bands is None:
         bands = 1 if executor is None else min(ny, 8)
-    bands = max(1, min(bands, ny))
-    edges = np.linspace(0, ny, bands + 1).round().astype(int)
-    chunks = [list(range(a, b)) for a, b in itertools.pairwise(edges) if b > a]
-    rows: dict[int, dict] = {}
-    done = 0
-    if executor is None:
-        for chunk in chunks:
-            for iy, out in _solve_band(study, request, chunk):
-                rows[iy] = out
-            done += len(chunk)
-            if progress:
-                progress(done, ny)
-    else:
-        futures = {executor.submit(_solve_band, study, request, c): c for c in chunks}
-        for fut in as_completed(futures):
-            for iy, out in fut.result():
-                rows[iy] = out
-            done += len(futures[fut])
-            if progress:
-                progress(done, ny)
-    return _assemble(study, request, rows)
+    chunk = max(1, -(-len(cells) // max(1, min(bands, ny))))
+    report = None if progress is None else (lambda done, total: progress(done // nx, ny))
+    results = solve_cells(study, cells, executor, chunk=chunk, keep_policy=True,
+                          progress=report, cohort=False)
+    failed = [r for r in results if not r.ok]
+    if failed:
+        more = f" (and {len(failed) - 1} more cells)" if len(failed) > 1 else ""
+        raise SolveError(failed[0].failure, failed[0].label + more)
+    return _assemble(study, request, results)
 
 
-def _assemble(study: Study, request: MapRequest, rows: dict[int, dict]) -> MapResult:
+def _assemble(study: Study, request: MapRequest, results: list[CellResult]) -> MapResult:
     ny, nx = request.y.steps, request.x.steps
     pred, prey = study.inputs_for(study.scenario(request.scenario))
     groups: list[str] = []
     for p in prey:
         if p.group not in groups:
             groups.append(p.group)
+    n = pred.energy_levels
+    regimes = np.array([_regimes(r.policy, prey, n) for r in results], dtype=object)
 
-    def grid_of(key, dtype=float):
-        return np.array([[rows[iy][key][ix] for ix in range(nx)] for iy in range(ny)],
-                        dtype=dtype)
+    def grid_of(values, dtype=float):
+        return np.asarray(values, dtype=dtype).reshape(ny, nx)
 
     kills = {g: np.zeros((ny, nx)) for g in groups}
-    for iy in range(ny):
-        for ix in range(nx):
-            for g, k in zip(rows[iy]["groups"][ix], rows[iy]["kills"][ix], strict=True):
-                kills[g][iy, ix] += k
+    for i, p in enumerate(prey):
+        kills[p.group] += grid_of([r.kills_per_predator_per_year[i] for r in results])
     extra = None
     if request.gradient is not None:
-        extra = grid_of("extra")
+        extra = grid_of([r.marginal_extra for r in results])
     return MapResult(
         request=request,
         x=request.x.values,
         y=request.y.values,
-        regime_healthy=grid_of("regime_h", object).astype(str),
-        regime_injured=grid_of("regime_i", object).astype(str),
-        regime_healthy_detail=grid_of("detail_h", object).astype(str),
-        regime_injured_detail=grid_of("detail_i", object).astype(str),
-        fitness_at_start=grid_of("fitness"),
-        marginal_hunting_ability=grid_of("marginal"),
+        regime_healthy=grid_of(regimes[:, 0], object).astype(str),
+        regime_injured=grid_of(regimes[:, 1], object).astype(str),
+        regime_healthy_detail=grid_of(regimes[:, 2], object).astype(str),
+        regime_injured_detail=grid_of(regimes[:, 3], object).astype(str),
+        fitness_at_start=grid_of([r.fitness_at_start for r in results]),
+        marginal_hunting_ability=grid_of([r.marginal_hunting_ability for r in results]),
         marginal_extra=extra,
         kills_per_year=kills,
         groups=tuple(groups),
-        max_residual=float(grid_of("residual").max()),
+        max_residual=float(max(r.residual for r in results)),
         currency=pred.currency,
     )
 

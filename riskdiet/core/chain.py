@@ -362,6 +362,16 @@ class SteadyState:
     lifetime_note: str | None = None
 
 
+def _same_system(solution: Solution, step: ChainStep) -> bool:
+    """Whether the solution's linear solver holds exactly this chain's I - P."""
+    linear = solution.linear
+    if linear is None or linear.matrix.shape != step.transitions.shape:
+        return False
+    identity = sp.identity(step.transitions.shape[0], format="csr")
+    difference = linear.matrix - (identity - step.transitions)
+    return difference.nnz == 0 or float(abs(difference).max()) == 0.0
+
+
 def steady_state(grid: Grid, solution: Solution) -> SteadyState:
     """Kill rates and life history of the breeding-currency chain.
 
@@ -413,24 +423,44 @@ def steady_state(grid: Grid, solution: Solution) -> SteadyState:
     restart = grid.after_breeding_level - 1
     death = step.deaths.sum(0)
 
-    first = absorbing_summary(step.transitions, np.column_stack([step.breed, step.deaths.T]),
-                              start, step.days)
-    bred = np.flatnonzero(step.breed > 0)
-    reset = sp.csr_matrix((step.breed[bred], (bred, np.full(bred.size, restart))),
-                          shape=(size, size))
-    life_chain = (step.transitions + reset).tocsr()
+    exits = np.column_stack([step.breed, step.deaths.T])
     never_dies = (solution.complement is not None
                   and solution.complement[0, grid.after_breeding_level] < NEVER_DIES)
-    if not never_dies and always_absorbed(life_chain, death, start):
-        life = absorbing_summary(life_chain, death, start, step.days)
-        visits = life.visits
-        lifetime = life.time
-        breeding_events = float(visits @ step.breed)
-        note = None
+    note = NEVER_DIES_NOTE if never_dies else None
+    if _same_system(solution, step):
+        # rows of (I - P)^-1 from the policy solve's own factors: two transposed solves
+        unit = np.zeros(size)
+        unit[start] = 1.0
+        from_start = solution.linear.transposed(unit)
+        unit[start], unit[restart] = 0.0, 1.0
+        from_restart = solution.linear.transposed(unit)
+        first = AbsorbingSummary(from_start, float(from_start @ step.days),
+                                 from_start @ exits)
+        if never_dies:
+            visits = from_restart
+            lifetime = breeding_events = math.inf
+        else:
+            # Sherman-Morrison for the breeding reset (see riskdiet.core.batch._kill_rates)
+            v_start = solution.fitness[0, grid.start_level]
+            u_restart = solution.complement[0, grid.after_breeding_level]
+            visits = from_start + (v_start / u_restart) * from_restart
+            lifetime = float(visits @ step.days)
+            breeding_events = float(visits @ step.breed)
     else:
-        visits = absorbing_summary(step.transitions, step.breed, restart).visits
-        lifetime = breeding_events = math.inf
-        note = NEVER_DIES_NOTE
+        first = absorbing_summary(step.transitions, exits, start, step.days)
+        bred = np.flatnonzero(step.breed > 0)
+        reset = sp.csr_matrix((step.breed[bred], (bred, np.full(bred.size, restart))),
+                              shape=(size, size))
+        life_chain = (step.transitions + reset).tocsr()
+        if not never_dies and always_absorbed(life_chain, death, start):
+            life = absorbing_summary(life_chain, death, start, step.days)
+            visits = life.visits
+            lifetime = life.time
+            breeding_events = float(visits @ step.breed)
+        else:
+            visits = absorbing_summary(step.transitions, step.breed, restart).visits
+            lifetime = breeding_events = math.inf
+            note = NEVER_DIES_NOTE
     pi = _distribution(visits)
     mean_days = float(pi @ step.days)
     time_share = pi * step.days / mean_days

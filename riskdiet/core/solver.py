@@ -58,6 +58,8 @@ DIRECT_LIMIT = 300
 """Largest system (unknowns) factorised directly; larger ones try BiCGSTAB first."""
 SOLVE_TOLERANCE = 1e-13
 """Largest accepted residual of an iterative solve in each state, relative to b_s + (P x)_s."""
+REFINEMENTS = 6
+"""Defect-correction rounds an iterative solve may take before a factorisation is used."""
 RESIDUAL_LIMIT = 1e-9
 """Largest accepted Bellman residual relative to each state's value (MODEL.md section 3)."""
 SUM_LIMIT = 1e-9
@@ -90,13 +92,14 @@ class LinearSolve:
     solution of the linear system to rounding error, not a truncated iteration.
     """
 
-    def __init__(self, matrix: sp.csr_matrix, label: str = "1"):
+    def __init__(self, matrix: sp.csr_matrix, label: str = "1", factorise: bool = True):
         self.matrix = matrix
         self.label = label
         self.lu = None
         self.method = "sparse LU"
-        if matrix.shape[0] <= DIRECT_LIMIT:
+        if factorise and matrix.shape[0] <= DIRECT_LIMIT:
             self.lu = _factorise(matrix, label)
+
 
     def accepted(self, x: np.ndarray, rhs: np.ndarray) -> bool:
         """MODEL.md section 3: x >= 0 and |((I - P)x - b)_s| <= 1e-13 (b_s + (P x)_s)."""
@@ -105,16 +108,69 @@ class LinearSolve:
         lhs = self.matrix @ x
         return bool(np.all(np.abs(lhs - rhs) <= SOLVE_TOLERANCE * (rhs + (x - lhs))))
 
+    def _iterate(self, matrix: sp.csr_matrix, rhs: np.ndarray, guess: np.ndarray | None
+                 ) -> np.ndarray | None:
+        """BiCGSTAB, then defect-correction rounds until the per-state test holds.
+
+        Each round solves for the correction from the residual r = b - A x,
+        which floating point computes to each state's own precision, so small
+        values (tiny chances of dying) gain relative accuracy round by round.
+        """
+        x, info = bicgstab(matrix, rhs, x0=guess, rtol=SOLVE_TOLERANCE * 0.1, atol=0.0,
+                           maxiter=20 * matrix.shape[0])
+        if info != 0:
+            return None
+        check = LinearSolve(matrix, self.label, factorise=False)
+        for _ in range(REFINEMENTS):
+            if check.accepted(x, rhs):
+                return x
+            residual = rhs - matrix @ x
+            if not np.any(residual):
+                break
+            # a breakdown on a tiny residual still returns a usable correction; the
+            # per-state test below decides whether the answer is accepted
+            delta, _ = bicgstab(matrix, residual, rtol=SOLVE_TOLERANCE * 0.1, atol=0.0,
+                                maxiter=20 * matrix.shape[0])
+            if not np.all(np.isfinite(delta)):
+                return None
+            x = x + delta
+        return x if check.accepted(x, rhs) else None
+
     def __call__(self, rhs: np.ndarray, guess: np.ndarray | None = None) -> np.ndarray:
         if self.lu is None:
-            x, info = bicgstab(self.matrix, rhs, x0=guess, rtol=SOLVE_TOLERANCE * 0.1, atol=0.0,
-                               maxiter=20 * self.matrix.shape[0])
-            if info == 0 and self.accepted(x, rhs):
+            x = self._iterate(self.matrix, rhs, guess)
+            if x is not None:
                 self.method = "BiCGSTAB (residual-checked)"
                 return x
             self.lu = _factorise(self.matrix, self.label)
             self.method = "sparse LU"
         x = self.lu.solve(rhs)
+        if not np.all(np.isfinite(x)):
+            raise SolveError(SINGULAR.format(round=self.label))
+        return x
+
+    def transposed(self, rhs: np.ndarray) -> np.ndarray:
+        """Solve (I - P)^T x = b: rows of the fundamental matrix (expected visits).
+
+        Reuses the policy solve's LU factors when there are any (SuperLU solves
+        the transposed system with the same factors); otherwise BiCGSTAB on the
+        transposed matrix, accepted on the same per-state residual test, else a
+        factorisation after all.
+        """
+        if self.lu is None:
+            # expected visits need accuracy relative to the largest (kill rates to 1e-10),
+            # not per state: unreachable states are exact zeros an iteration only nears
+            matrix_t = self.matrix.T.tocsr()
+            # started from b itself: from zero, a unit right-hand side breaks BiCGSTAB down
+            x, info = bicgstab(matrix_t, rhs, x0=rhs.copy(), rtol=SOLVE_TOLERANCE * 0.1,
+                               atol=0.0, maxiter=20 * self.matrix.shape[0])
+            scale = max(float(np.abs(x).max(initial=0.0)), float(np.abs(rhs).max()))
+            if (info == 0 and np.all(np.isfinite(x))
+                    and np.abs(matrix_t @ x - rhs).max() <= SOLVE_TOLERANCE * scale):
+                return x
+            self.lu = _factorise(self.matrix, self.label)
+            self.method = "sparse LU"
+        x = self.lu.solve(rhs, trans="T")
         if not np.all(np.isfinite(x)):
             raise SolveError(SINGULAR.format(round=self.label))
         return x
@@ -161,6 +217,9 @@ class Solution:
     complement : ndarray, shape (2, n + 1)
         U = 1 - V computed directly (MODEL.md section 3), exact for values
         near 1 where V has lost its precision.
+    linear : LinearSolve or None
+        The final policy's linear solver (breeding currency), whose factors
+        the kill chain reuses for the rows of the fundamental matrix.
     """
 
     currency: str
@@ -177,6 +236,7 @@ class Solution:
     priority_by_day: np.ndarray | None = None
     linear_solver: str = "backward induction"
     complement: np.ndarray | None = None
+    linear: LinearSolve | None = dataclasses.field(default=None, repr=False, compare=False)
 
     def living_priority(self, grid: Grid, day: int = 0) -> np.ndarray:
         """Policy restricted to living states, shape (2, m, P)."""
@@ -325,7 +385,7 @@ def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS) -> S
     marginal = _full_levels(grid, dv, 0.0, 0.0)
     solution = _finish(grid, fitness, complement, _full_levels(grid, priority, -1, -1), marginal,
                        residual, iteration)
-    return dataclasses.replace(solution, linear_solver=lu.method)
+    return dataclasses.replace(solution, linear_solver=lu.method, linear=lu)
 
 
 def solve_season(grid: Grid) -> Solution:
