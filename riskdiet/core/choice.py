@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.core.grid import Grid, Split, Targets, attack_probabilities
+from riskdiet.core.grid import Grid, Split, Targets, attack_probabilities, gather
 
 RELATIVE_TOLERANCE = 1e-12
 """tau: one choice beats another only by more than this fraction of the larger value."""
@@ -84,8 +84,7 @@ def _cap_interp(v_cap: np.ndarray, cond: int, s: Split) -> np.ndarray:
     rows = v_cap[..., cond, :]                                  # (*B, P, L)
     low = np.swapaxes(s.low, -1, -2)                            # (*B, P, m)
     w = np.swapaxes(s.weight, -1, -2)
-    vals = ((1.0 - w) * np.take_along_axis(rows, low, -1)
-            + w * np.take_along_axis(rows, low + 1, -1))
+    vals = (1.0 - w) * gather(rows, low) + w * gather(rows, low + 1)
     return np.swapaxes(vals, -1, -2)
 
 

@@ -16,7 +16,8 @@ from conftest import grid_of, injury_raw
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from riskdiet.core.grid import attack_probabilities, outcomes, rank_attacks, split, targets
+from riskdiet.core.choice import ChoiceValues, greedy_sets
+from riskdiet.core.grid import attack_probabilities, outcomes, split, targets
 
 
 def _enumerated(meet: list[float], rank: list[int]) -> list[float]:
@@ -50,12 +51,19 @@ def test_attack_probabilities_match_enumeration_of_encounter_sets(data):
     np.testing.assert_allclose(got, _enumerated(meet, ranks), rtol=0, atol=1e-12)
 
 
-def test_rank_attacks_breaks_ties_by_listing_order_and_ignores_ties_with_ignoring():
-    """Equal attack values go to the prey listed first; a value equal to the value
-    of ignoring (within 1e-12 max(1, G)) is ignored (MODEL.md section 3)."""
+def test_greedy_sets_break_ties_by_listing_order_and_need_a_relative_gain():
+    """Equal attack values go to the prey listed first; a value better than
+    ignoring by no more than 1e-12 of the larger value is not worth attacking,
+    while one far below 1e-12 in absolute terms but relatively better is
+    (MODEL.md section 3)."""
     values = np.array([[0.5, 0.7, 0.7, 0.4 + 1e-13, 0.3]])
-    ranks = rank_attacks(values, np.array([0.4]))
-    assert ranks.tolist() == [[2, 0, 1, -1, -1]]
+    cv = ChoiceValues(np.array([0.4]), np.array([0.6]), values, 1.0 - values,
+                      np.zeros_like(values))
+    assert greedy_sets(cv).tolist() == [[2, 0, 1, -1, -1]]
+    tiny = np.array([[2e-80, 1e-80]])
+    cv = ChoiceValues(np.array([1e-80]), np.array([1.0]), tiny, 1.0 - tiny,
+                      np.zeros_like(tiny))
+    assert greedy_sets(cv).tolist() == [[0, -1]]
 
 
 def test_split_puts_weight_on_the_upper_level_and_clips_at_the_boundaries():
