@@ -36,7 +36,74 @@ def _write_sheet(ws, table: Table) -> None:
     for i, name in enumerate(table.header, start=1):
         longest = max([len(str(name))] + [len(str(r[i - 1])) for r in table.rows[:200]
                                           if len(r) >= i and r[i - 1] is not None])
-        ws.column_dimensions[get_column_letter(i)].width = min(max(10, longest + 2), 60)
+        ws.column_dimensions[get_column_letter(i)].width = min(max(10, longest + 2), WIDEST)
+        if longest + 2 > WIDEST:  # long text (findings, notes) wraps inside its column
+            for r in range(header_row + 1, ws.max_row + 1):
+                cell = ws.cell(row=r, column=i)
+                cell.alignment = Alignment(wrap_text=True, vertical="top")
+                # spreadsheet programs do not grow rows for wrapped text on their own
+                lines = -(-len(str(cell.value or "")) // (WIDEST - 4))
+                if lines > 1:
+                    height = LINE_POINTS * lines
+                    current = ws.row_dimensions[r].height or 0
+                    ws.row_dimensions[r].height = max(current, height)
+    _print_setup(ws, header_row, len(table.header))
+
+
+WIDEST = 60
+"""Widest column [characters]; longer text wraps."""
+LINE_POINTS = 15
+"""Height of one line of wrapped text [pt]."""
+
+
+def _print_setup(ws, header_row: int, columns: int) -> None:
+    """Landscape, fit to the page width, the header row repeated on every printed page."""
+    from openpyxl.utils import get_column_letter
+
+    ws.print_area = f"A1:{get_column_letter(max(columns, 1))}{ws.max_row}"
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    ws.print_title_rows = f"{header_row}:{header_row}"
+    ws.print_options.gridLines = True
+    ws.oddFooter.center.text = "&P of &N"
+    ws.oddHeader.left.text = "&A"
+
+
+def _reproducible(data: bytes, stamp: tuple[int, int, int]) -> bytes:
+    """The same workbook bytes for the same content: fixed zip times, fixed order.
+
+    openpyxl stamps the zip entries with the time of saving; the date of the
+    results (the study's report date, else today) is used instead.
+    """
+    import io
+    import re
+    import zipfile
+
+    source = zipfile.ZipFile(io.BytesIO(data))
+    when = f"{stamp[0]:04d}-{stamp[1]:02d}-{stamp[2]:02d}T00:00:00Z"
+    out = io.BytesIO()
+    with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as target:
+        for info in source.infolist():
+            fixed = zipfile.ZipInfo(info.filename, date_time=(*stamp, 0, 0, 0))
+            fixed.compress_type = zipfile.ZIP_DEFLATED
+            fixed.external_attr = 0o600 << 16
+            content = source.read(info.filename)
+            if info.filename == "docProps/core.xml":  # openpyxl sets "modified" to now on save
+                content = re.sub(rb"(<dcterms:modified[^>]*>)[^<]*", rb"\g<1>" + when.encode(),
+                                 content)
+            target.writestr(fixed, content)
+    return out.getvalue()
+
+
+def _date_of(tables: list[Table]) -> str:
+    """The results' date, as the Summary table records it."""
+    for row in tables[0].rows:
+        if len(row) == 2 and row[0] == "date":
+            return str(row[1])
+    raise ValueError("the Summary table has no date")
 
 
 def _cell(value):
@@ -54,17 +121,29 @@ def write_results_workbook(result: StudyResult, path: str | Path, force: bool = 
     ``outputs`` is given: staged in that set, renamed when it is committed), and
     an existing file is replaced only with ``force``; the input is never touched.
     """
+    import datetime as dt
+    import io
+
     from openpyxl import Workbook
 
     tables = results_tables(result, date)
     source = (Path(result.study.source),) if result.study.source else ()
+    day = dt.date.fromisoformat(_date_of(tables))
 
     def write(tmp: Path) -> None:
         wb = Workbook()
         wb.remove(wb.active)
         for table in tables:
             _write_sheet(wb.create_sheet(table.name), table)
-        wb.save(tmp)
+        stamp = dt.datetime(day.year, day.month, day.day)
+        wb.properties.title = f"{result.study.name}: riskdiet results"
+        wb.properties.subject = "Predicted prey choice, kills and risk of a predator, by scenario"
+        wb.properties.creator = f"riskdiet {result.riskdiet_version}"
+        wb.properties.lastModifiedBy = f"riskdiet {result.riskdiet_version}"
+        wb.properties.created = wb.properties.modified = stamp
+        buffer = io.BytesIO()
+        wb.save(buffer)
+        tmp.write_bytes(_reproducible(buffer.getvalue(), (day.year, day.month, day.day)))
 
     return write_atomic(Path(path), write, force, source, outputs)
 

@@ -55,6 +55,26 @@ __all__ = ["SECTIONS", "BriefPlan", "brief_date", "brief_story", "build_brief", 
 
 _DATE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
 FOOTER_NOTE = "Decision aid, not a forecast of individual animals."
+LANGUAGE = "en-GB"
+"""Document language written to the PDF catalog (/Lang), for screen readers and archives."""
+
+
+class _BriefDocument(BaseDocTemplate):
+    """The brief's document: every section heading becomes a PDF bookmark."""
+
+    def afterFlowable(self, flowable) -> None:
+        title = getattr(flowable, "outline_title", None)
+        if title is None:
+            return
+        level = getattr(flowable, "outline_level", 0)
+        key = f"section-{len(self._outline_keys)}"
+        self._outline_keys.append(key)
+        self.canv.bookmarkPage(key)
+        self.canv.addOutlineEntry(title, key, level=level, closed=level > 0)
+
+    def build(self, flowables, **kwargs) -> None:
+        self._outline_keys: list[str] = []
+        super().build(flowables, **kwargs)
 
 
 def _valid_date(text: str) -> bool:
@@ -309,8 +329,12 @@ def _numbered_canvas(plan: BriefPlan) -> type[Canvas]:
 
     class NumberedCanvas(Canvas):
         def __init__(self, *args, **kwargs):
+            # an embedded font from the start: the default (Helvetica) is never embedded
+            kwargs["initialFontName"] = font
+            kwargs.setdefault("lang", LANGUAGE)
             super().__init__(*args, **kwargs)
             self._page_states: list[dict] = []
+            self.setViewerPreference("DisplayDocTitle", "true")
 
         def showPage(self):
             self._page_states.append(dict(self.__dict__))
@@ -325,6 +349,7 @@ def _numbered_canvas(plan: BriefPlan) -> type[Canvas]:
                 self.drawRightString(page_w - MARGIN_SIDE, MARGIN_BOTTOM - 10 * mm,
                                      f"page {self._pageNumber} of {total}")
                 Canvas.showPage(self)
+            self.showOutline()
             Canvas.save(self)
 
     return NumberedCanvas
@@ -361,8 +386,9 @@ def _build(plan: BriefPlan, story: tuple[list, list[str]] | None = None
     study = plan.result.study
     page_w, page_h = PAPER[plan.paper]
     buffer = io.BytesIO()
-    doc = BaseDocTemplate(
-        buffer, pagesize=(page_w, page_h), leftMargin=MARGIN_SIDE, rightMargin=MARGIN_SIDE,
+    doc = _BriefDocument(
+        buffer, pagesize=(page_w, page_h), lang=LANGUAGE, leftMargin=MARGIN_SIDE,
+        rightMargin=MARGIN_SIDE,
         topMargin=MARGIN_TOP, bottomMargin=MARGIN_BOTTOM, invariant=1,
         title=f"{study.name}: decision brief",
         subject="Predicted prey choice, kills and risk of a predator, by scenario "

@@ -65,7 +65,10 @@ class Styles:
 
 def make_styles(fonts: FontSet) -> Styles:
     """The brief's paragraph styles."""
-    body = ParagraphStyle("body", fontName=fonts.regular, fontSize=9.5, leading=12.6,
+    # bulletFontName too: without it reportlab draws bullets in Helvetica, which is not
+    # embedded (an archived PDF must embed every font it uses)
+    body = ParagraphStyle("body", fontName=fonts.regular, bulletFontName=fonts.regular,
+                          fontSize=9.5, leading=12.6,
                           spaceAfter=5, alignment=TA_LEFT)
     cell = ParagraphStyle("cell", fontName=fonts.regular, fontSize=TABLE_FONT_SIZE,
                           leading=TABLE_FONT_SIZE + 1.8, splitLongWords=1)
@@ -235,6 +238,8 @@ def make_table(rows: list[list[str]], columns: list[Column], styles: Styles, wid
     cells = [[Paragraph(text, _cell_style(styles, columns[c], r < header_rows))
               for c, text in enumerate(row)] for r, row in enumerate(rows)]
     style = [
+        # the table's own font (reportlab's default is Helvetica, which is not embedded)
+        ("FONTNAME", (0, 0), (-1, -1), styles.cell.fontName),
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("LEFTPADDING", (0, 0), (-1, -1), CELL_PAD),
         ("RIGHTPADDING", (0, 0), (-1, -1), CELL_PAD),

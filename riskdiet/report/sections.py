@@ -209,6 +209,9 @@ class Builder:
     def heading(self, title: str) -> None:
         self.story.append(CondPageBreak(150))
         self.para(f"{self.number(title)}. {esc(title)}", self.s.h1)
+        # the PDF's bookmarks list every section (riskdiet.report.brief._BriefDocument)
+        self.story[-1].outline_title = f"{self.number(title)}. {title}"
+        self.story[-1].outline_level = 0
 
     def sub(self, text: str) -> None:
         # room for the heading and a few lines; a table after it may then split normally
