@@ -131,6 +131,10 @@ def main() -> None:
                                                 if len(runs) > 1 else "")
           + f"  CPU {cpu_pool:.1f} s in the workers  [wall time includes starting the pool]")
     print("(CPU seconds do not depend on other work on the machine; wall time does)")
+    own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    workers = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+    print(f"peak memory: {own:.0f} MiB in this process (inline map), {workers:.0f} MiB in the "
+          "largest worker (target <= 2048 MiB)")
     same = (np.array_equal(inline.fitness_at_start, pooled.fitness_at_start)
             and np.array_equal(inline.regime_healthy_detail, pooled.regime_healthy_detail)
             and np.array_equal(inline.regime_injured_detail, pooled.regime_injured_detail))
