@@ -127,10 +127,30 @@ def _fail(exc: RiskdietError) -> typer.Exit:
 
 def _solved(path: Path):
     """Load and solve a study, turning library errors into exit code 2."""
+    with _guard():
+        return _solve_showing_progress(_load(path))
+
+
+def _solve_showing_progress(study):
+    """Solve a study with a progress bar on stderr, shown only on an interactive terminal.
+
+    Quiet in CI (the ``CI`` variable) and when output is piped, so logs stay clean.
+    """
+    import os
+
+    from rich.progress import Progress
+
     from riskdiet.analysis.study import solve as solve_study
 
-    with _guard():
-        return solve_study(_load(path))
+    console = Console(stderr=True)
+    silent = not console.is_interactive or bool(os.environ.get("CI"))
+    with Progress(console=console, disable=silent, transient=True) as bar:
+        task = bar.add_task("solving scenarios and maps", total=None)
+
+        def progress(done: int, total: int) -> None:
+            bar.update(task, completed=done, total=total)
+
+        return solve_study(study, progress=progress)
 
 
 def _version(value: bool) -> None:
@@ -161,7 +181,6 @@ def solve(
     Example (after riskdiet demo): riskdiet solve riskdiet-demo/harrow-vale.xlsx --out
     results.xlsx
     """
-    from riskdiet.analysis.study import solve as solve_study
     from riskdiet.io.atomic import OutputSet
 
     outputs = OutputSet(force, (study,))
@@ -178,7 +197,7 @@ def solve(
 
             for path in csv_paths(loaded, csv_dir):
                 outputs.plan(path)
-        result = solve_study(loaded)
+        result = _solve_showing_progress(loaded)
         if out is not None:
             from riskdiet.io.results_workbook import write_results_workbook
 
@@ -283,7 +302,6 @@ def brief(
     Example (after riskdiet demo): riskdiet brief riskdiet-demo/harrow-vale.xlsx --out
     brief.pdf
     """
-    from riskdiet.analysis.study import solve as solve_study
     from riskdiet.io.atomic import OutputSet
     from riskdiet.report.brief import brief_date, write_brief
 
@@ -302,7 +320,7 @@ def brief(
             for key in decision_figure_keys(loaded):
                 for suffix in (".png", ".svg"):
                     outputs.plan(figures / f"{key}{suffix}")
-        result = solve_study(loaded)
+        result = _solve_showing_progress(loaded)
         written = write_brief(result, target, paper=paper.strip().lower(), date=date,
                               force=force, figures_dir=figures, outputs=outputs)
         outputs.commit()

@@ -12,6 +12,7 @@ Scenarios are independent, so :func:`solve` accepts any
 from __future__ import annotations
 
 import dataclasses
+from collections.abc import Callable
 from concurrent.futures import Executor
 from dataclasses import dataclass
 
@@ -164,7 +165,8 @@ def solve_scenario(study: Study, scenario: Scenario) -> ScenarioResult:
     )
 
 
-def solve(study: Study, executor: Executor | None = None) -> StudyResult:
+def solve(study: Study, executor: Executor | None = None,
+          progress: Callable[[int, int], None] | None = None) -> StudyResult:
     """Solve every scenario of a study.
 
     Parameters
@@ -174,21 +176,31 @@ def solve(study: Study, executor: Executor | None = None) -> StudyResult:
     executor : concurrent.futures.Executor, optional
         Runs scenarios in parallel when given (processes, threads or a Dask
         client's executor); in order in this process otherwise.
+    progress : callable, optional
+        ``progress(done, total)`` in steps of work: one per scenario, then one
+        per row of the map the settings ask for.
 
     Returns
     -------
     StudyResult
     """
-    request_from_settings(study)  # a bad map request fails before any work
+    request = request_from_settings(study)  # a bad map request fails before any work
+    rows = 0 if request is None else request.y.steps
+    total = len(study.scenarios) + rows
     if executor is None:
-        results = [solve_scenario(study, s) for s in study.scenarios]
+        results = []
+        for s in study.scenarios:
+            results.append(solve_scenario(study, s))
+            if progress:
+                progress(len(results), total)
     else:
         results = list(executor.map(solve_scenario, [study] * len(study.scenarios),
                                     study.scenarios))
     baseline = results[0]
     results = [dataclasses.replace(r, findings=findings(r, baseline)) for r in results]
-    request = request_from_settings(study)
-    surface = None if request is None else make_map(study, request, executor)
+    done = len(results)
+    step = None if progress is None else (lambda row, _rows: progress(done + row, total))
+    surface = None if request is None else make_map(study, request, executor, progress=step)
     return StudyResult(study, tuple(results), map=surface)
 
 
