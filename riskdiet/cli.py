@@ -321,8 +321,12 @@ def brief(
                 for suffix in (".png", ".svg"):
                     outputs.plan(figures / f"{key}{suffix}")
         result = _solve_showing_progress(loaded)
+        fitted = None
+        if loaded.observations and loaded.settings.fit:
+            # the brief's "Fit to field records" section (MODEL.md section 10)
+            fitted = _run_fit(loaded, 1)
         written = write_brief(result, target, paper=paper.strip().lower(), date=date,
-                              force=force, figures_dir=figures, outputs=outputs)
+                              force=force, figures_dir=figures, outputs=outputs, fit=fitted)
         outputs.commit()
     typer.echo(f"wrote {written[0]}")
     if figures is not None:
@@ -529,6 +533,76 @@ def _scheduler_client(address: str):
                                   f"({type(exc).__name__})")]) from None
     with client:
         yield client
+
+
+@app.command("fit")
+def fit_command(
+    study: Path = typer.Argument(..., help=STUDY_HELP),
+    out: Path | None = typer.Option(None, "--out", help="Write a new study workbook (.xlsx) "
+                                    "with the fitted values in place."),
+    as_json: bool = typer.Option(False, "--json", help="Print one JSON document to stdout."),
+    workers: int = typer.Option(1, "--workers", min=1, help="Local worker processes."),
+    force: bool = typer.Option(False, "--force", help="Replace an existing output file."),
+) -> None:
+    """Fit the inputs named in the fit setting to the Observations sheet (field diet records).
+
+    Example: riskdiet fit my-study.xlsx --out fitted.xlsx
+    """
+    from riskdiet.io.atomic import OutputSet
+
+    outputs = OutputSet(force, (study,))
+    with _guard(outputs):
+        if out is not None and out.suffix.lower() != ".xlsx":
+            raise StudyError([Problem(f"--out {out}", "a file name ending in .xlsx",
+                                      f'"{out.suffix or "no ending"}"')])
+        loaded = _load(study)
+        from riskdiet.analysis.fit_data import fit_data
+
+        fit_data(loaded)  # a study without records or fit setting fails before any solve
+        if out is not None:
+            outputs.plan(out)
+        result = _run_fit(loaded, workers)
+        if out is not None:
+            from riskdiet.io.fitted_study import write_fitted_study
+
+            write_fitted_study(out, loaded, result, outputs)
+        if as_json:
+            text = json.dumps(result.to_dict(), indent=1, allow_nan=False)
+        else:
+            from riskdiet.report.fit_text import fit_summary
+
+            text = fit_summary(result)
+        written = outputs.commit()
+    if as_json:
+        typer.echo(text)
+    else:
+        _stdout().print(text)
+    for path in written:
+        typer.echo(f"wrote {path} (the fitted study; the input is unchanged)", err=as_json)
+
+
+def _run_fit(study, workers: int):
+    """Fit with a progress bar on a terminal (none in CI or when piped)."""
+    import os
+
+    from rich.progress import Progress
+
+    from riskdiet.analysis.fit import fit_study
+
+    console = Console(stderr=True)
+    silent = not console.is_interactive or bool(os.environ.get("CI"))
+    with Progress(console=console, disable=silent, transient=True) as bar:
+        task = bar.add_task("fitting", total=1.0)
+
+        def progress(stage: str, done: float) -> None:
+            bar.update(task, completed=done, description=stage)
+
+        if workers > 1:
+            from concurrent.futures import ProcessPoolExecutor
+
+            with ProcessPoolExecutor(max_workers=workers, initializer=_ignore_interrupt) as pool:
+                return fit_study(study, pool, progress)
+        return fit_study(study, progress=progress)
 
 
 def main() -> None:

@@ -332,6 +332,65 @@ class Settings:
     map_gradient: str | None = spec_field(
         kind=TEXT, unit="FIELD or PREY:FIELD",
         description="A further input whose marginal value the map shows (optional).")
+    fit: str | None = spec_field(
+        kind=TEXT, unit="FIELD or PREY:FIELD, comma-separated",
+        description="One to three inputs to fit to the Observations sheet, e.g. "
+        "hunting_ability, upland ewe:encounters_per_day (riskdiet fit).")
+    overdispersion: bool = spec_field(
+        False, kind=BOOLEAN, unit="yes/no",
+        description="Let the compositions of records vary more than chance allows "
+        "(Dirichlet-multinomial; needs at least two compositions).")
+
+
+OBSERVATION_KINDS = ("kills", "scats")
+
+
+@dataclass(frozen=True)
+class Observation:
+    """One row of field diet records (MODEL.md section 10).
+
+    A row with a prey counts records of that prey; a ``kills`` row with
+    ``predator_days`` and no prey is a rate row (kills found over a period of
+    monitoring). Rows sharing (scenario, kind, source) form one composition.
+    """
+
+    prey: str | None = spec_field(
+        kind=TEXT, unit="text", max_length=NAME_MAX_LENGTH,
+        description="Prey type, as named on the Prey sheet (blank on a rate row).")
+    count: int | None = spec_field(
+        kind=INTEGER, unit="count", low=0, required=True,
+        description="Records of this prey (kills found, or scats holding its remains).")
+    kind: str = spec_field(
+        "kills", kind=CHOICE, unit="word", choices=OBSERVATION_KINDS,
+        description="kills (found at kill sites) or scats (remains in scats or other "
+        "diet samples).")
+    detection: float = spec_field(
+        1.0, kind=NUMBER, unit="ratio", low=0, low_open=True,
+        description="Relative chance that one kill of this prey is recorded, e.g. scats "
+        "produced per individual eaten (published correction factors).")
+    scenario: str | None = spec_field(
+        kind=TEXT, unit="text", max_length=NAME_MAX_LENGTH,
+        description="Scenario under which the records were collected (blank: baseline).")
+    source: str | None = spec_field(
+        kind=TEXT, unit="text", max_length=NAME_MAX_LENGTH,
+        description="Study, pack or season the records come from; one composition each.")
+    note: str = spec_field("", kind=TEXT, unit="text", description="Free text.")
+    predator_days: float | None = spec_field(
+        kind=NUMBER, unit="predator-days", low=0, low_open=True,
+        description="Rate rows only (kills, no prey): days of monitoring summed over "
+        "the predators monitored.")
+    where: str = ""
+    index: int = -1
+
+    @property
+    def is_rate(self) -> bool:
+        """A rate row: kills over ``predator_days`` of monitoring, no prey."""
+        return self.prey is None
+
+    @property
+    def composition_key(self) -> tuple[str, str, str]:
+        """(scenario, kind, source): the composition this row belongs to."""
+        return (self.scenario or BASELINE, self.kind, self.source or "")
 
 
 @dataclass(frozen=True)
@@ -363,6 +422,7 @@ class Study:
     source: str = ""
     source_sha256: str = ""
     locations: dict[str, str] = dataclasses.field(default_factory=dict)
+    observations: tuple[Observation, ...] = ()
 
     @property
     def name(self) -> str:

@@ -48,6 +48,7 @@ class Locator(Protocol):
     def change(self, scenario: int, index: int, key: str) -> str: ...
     def uncertainty(self, index: int, key: str) -> str: ...
     def settings(self, field: str) -> str: ...
+    def observation(self, index: int, key: str) -> str: ...
 
 
 class JsonLocator:
@@ -70,6 +71,9 @@ class JsonLocator:
 
     def settings(self, field: str) -> str:
         return f"settings.{field}"
+
+    def observation(self, index: int, key: str) -> str:
+        return f"observations[{index}].{key}"
 
 
 # --------------------------------------------------------------------------- building
@@ -278,7 +282,7 @@ def build_study(raw: Any, locator: Locator | None = None, source: str = "") -> S
     if not isinstance(raw, dict):
         raise StudyError([Problem("(top level)", "a mapping with predator and prey",
                                   describe(type(raw).__name__))], source or None)
-    known = {"predator", "prey", "scenarios", "uncertainty", "settings"}
+    known = {"predator", "prey", "scenarios", "uncertainty", "settings", "observations"}
     for key in raw:
         if key not in known:
             problems.append(Problem(str(key), "one of " + ", ".join(sorted(known)),
@@ -331,13 +335,29 @@ def build_study(raw: Any, locator: Locator | None = None, source: str = "") -> S
                 lambda i, f, sc=sc, y2=y2: _scenario_where(sc, y2[i].name, f))
             problems.extend(found)
     problems += _settings_problems(settings, loc)
+    observations = _observations(raw, loc, prey, scenarios, settings, problems)
     if problems:
         raise StudyError(problems, source or None)
     notices += _scale_notices(scenarios)
     locations = {f"settings.{f}": loc.settings(f) for f in field_specs(Settings)}
     return Study(predator=predator, prey=tuple(prey), scenarios=tuple(scenarios),
                  uncertainty=tuple(uncertainty), settings=settings, notices=tuple(notices),
-                 notes=notes, source=source, locations=locations)
+                 notes=notes, source=source, locations=locations,
+                 observations=tuple(observations))
+
+
+def _observations(raw: dict, loc: Locator, prey: list[Prey], scenarios: list[Scenario],
+                  settings: Settings, problems: list[Problem]) -> list:
+    """Field diet records and the fit settings (MODEL.md section 10), located."""
+    from riskdiet.observations import build_observations, settings_fit_problems
+
+    where = getattr(loc, "observation", None) or JsonLocator().observation
+    before = len(problems)
+    rows = build_observations(raw.get("observations"), where, prey,
+                              [s.name for s in scenarios], problems)
+    if len(problems) == before and all(p.name for p in prey):
+        problems += settings_fit_problems(settings, tuple(prey), rows, loc.settings)
+    return rows
 
 
 _LOCAL_DATE = re.compile(r"^\s*(\d{1,2})[./-](\d{1,2})[./-](\d{2,4})\s*$")

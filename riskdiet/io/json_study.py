@@ -47,7 +47,7 @@ def read_json_study(path: str | Path) -> Study:
 def study_to_dict(study: Study) -> dict:
     """The study as a JSON-ready dictionary in the study-file layout (inputs as given)."""
     from riskdiet.fields import field_specs
-    from riskdiet.model import BASELINE, Predator, Prey, Settings
+    from riskdiet.model import BASELINE, Observation, Predator, Prey, Settings
 
     def record(obj, cls):
         return {k: getattr(obj, k) for k in field_specs(cls) if getattr(obj, k) is not None}
@@ -69,4 +69,5 @@ def study_to_dict(study: Study) -> dict:
             {"prey": u.prey, "field": u.field, "low": u.low, "high": u.high, "shape": u.shape,
              "mode": u.mode, "note": u.note} for u in study.uncertainty
         ],
+        "observations": [record(o, Observation) for o in study.observations],
     }

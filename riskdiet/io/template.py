@@ -46,6 +46,8 @@ from riskdiet.io.atomic import write_atomic
 from riskdiet.io.sheet_table import column_letter
 from riskdiet.io.workbook import (
     FIELD_VALUE_COLUMNS,
+    OBSERVATION_COLUMNS,
+    OBSERVATIONS,
     PREDATOR,
     PREY,
     README,
@@ -55,7 +57,15 @@ from riskdiet.io.workbook import (
     UNCERTAINTY,
     UNCERTAINTY_COLUMNS,
 )
-from riskdiet.model import CHANGE_KINDS, SHAPES, Predator, Prey, Settings, Study
+from riskdiet.model import (
+    CHANGE_KINDS,
+    OBSERVATION_KINDS,
+    SHAPES,
+    Predator,
+    Prey,
+    Settings,
+    Study,
+)
 
 VALIDATED_ROWS = 500
 """Rows 2..VALIDATED_ROWS of the table sheets carry data validation."""
@@ -94,6 +104,19 @@ _README_TEXT = (
      "loguniform."),
     ("text", "Settings (optional): the study's name, the date printed on the brief, and a "
      "short description."),
+    ("text", "Observations (optional): what the predator was seen to eat, for riskdiet fit. "
+     "One row per prey and set of records: count, kind (kills found at kill sites, or scats "
+     "holding remains), detection, and optionally the scenario under which the records were "
+     "collected and their source (a study, pack or season). Rows with the same scenario, kind "
+     "and source form one composition; a prey without a row in it counts as 0 records. A rate "
+     "row has kind kills, no prey, the kills found and predator_days of monitoring. Name the "
+     "inputs to fit in the Settings sheet (fit), then run:   riskdiet fit this-file.xlsx"),
+    ("text", "detection is the relative chance that one kill of this prey ends up in your "
+     "records (blank means 1). Scats: a large prey is eaten over several days and leaves "
+     "many scats, a small one few, so scat counts over-represent large prey. Use published "
+     "correction factors: if one deer eaten yields about 20 scats and one hare about 2, give "
+     "deer detection 20 and hare 2 (only the ratio matters). Kill sites: if a carcass of a "
+     "small prey is found half as often as a large one, give it 0.5 and the large one 1."),
     ("text", "This sheet, and any other sheet you add, is not read by riskdiet."),
     ("heading", "Typing values"),
     ("text", "Probabilities as decimals (0.25) or percentages (25 %). Yes/no fields accept "
@@ -235,7 +258,8 @@ def _readme_sheet(ws: Any) -> None:
             for c, value in enumerate(row, start=1):
                 ws.cell(row=r, column=c, value=value).alignment = wrap
             r += 1
-    for sheet, columns in ((SCENARIOS, SCENARIO_COLUMNS), (UNCERTAINTY, UNCERTAINTY_COLUMNS)):
+    for sheet, columns in ((SCENARIOS, SCENARIO_COLUMNS), (UNCERTAINTY, UNCERTAINTY_COLUMNS),
+                           (OBSERVATIONS, OBSERVATION_COLUMNS)):
         for name, meaning in columns.items():
             for c, value in enumerate((sheet, name, "", "", "", meaning), start=1):
                 ws.cell(row=r, column=c, value=value).alignment = wrap
@@ -354,7 +378,31 @@ def build_workbook(study: Study | dict | None = None) -> Any:
                  {"prey": 20, "field": 26, "shape": 12, "note": 60})
     _field_value_sheet(wb.create_sheet(SETTINGS), Settings, dict(raw.get("settings") or {}),
                        {})
+    _observations_sheet(wb.create_sheet(OBSERVATIONS), list(raw.get("observations") or []))
     return wb
+
+
+def _observations_sheet(ws: Any, rows: list[dict]) -> None:
+    """Field diet records: counts validated as whole numbers ≥ 0, kind as a list."""
+    from openpyxl.worksheet.datavalidation import DataValidation
+
+    from riskdiet.model import Observation
+
+    specs = field_specs(Observation)
+    kind = _list_validation(OBSERVATION_KINDS, "kind", OBSERVATION_COLUMNS["kind"])
+    count = DataValidation(type="whole", operator="greaterThanOrEqual", formula1="0",
+                           allow_blank=True, showErrorMessage=True, errorStyle="stop",
+                           errorTitle="riskdiet", error="count: expected a whole number ≥ 0.",
+                           showInputMessage=True, promptTitle="count",
+                           prompt=OBSERVATION_COLUMNS["count"][:255])
+    validations = {"kind": kind, "count": count,
+                   "detection": _validation(specs["detection"], "detection"),
+                   "predator_days": _validation(specs["predator_days"], "predator_days")}
+    _table_sheet(ws, list(OBSERVATION_COLUMNS), OBSERVATION_COLUMNS,
+                 {k: v for k, v in validations.items() if v is not None}, rows,
+                 {"prey", "kind", "scenario", "source", "note"},
+                 {"prey": 20, "count": 9, "kind": 9, "detection": 11, "scenario": 22,
+                  "source": 20, "note": 50, "predator_days": 15})
 
 
 def workbook_bytes(study: Study | dict | None = None) -> bytes:

@@ -25,6 +25,9 @@ sheet silently, others with a warning naming them, in case of a misspelt name).
     Columns ``prey``, ``field``, ``low``, ``high``, ``shape``, ``mode``, ``note``.
 ``Settings`` (optional)
     Columns ``field``, ``value`` (``unit`` and ``note`` allowed, not used).
+``Observations`` (optional)
+    Field diet records (MODEL.md section 10): ``prey``, ``count``, ``kind``,
+    ``detection``, ``scenario``, ``source``, ``note``, ``predator_days``.
 
 The column names are on the first row that holds one of them (rows above,
 such as a title, are ignored). Blank rows are skipped wherever they are, so
@@ -70,8 +73,9 @@ PREY = "Prey"
 SCENARIOS = "Scenarios"
 UNCERTAINTY = "Uncertainty"
 SETTINGS = "Settings"
+OBSERVATIONS = "Observations"
 README = "Read me"
-SHEETS = (PREDATOR, PREY, SCENARIOS, UNCERTAINTY, SETTINGS)
+SHEETS = (PREDATOR, PREY, SCENARIOS, UNCERTAINTY, SETTINGS, OBSERVATIONS)
 REQUIRED_SHEETS = (PREDATOR, PREY)
 
 FIELD_VALUE_COLUMNS = {
@@ -107,12 +111,31 @@ UNCERTAINTY_COLUMNS = {
 }
 """Columns of the Uncertainty sheet, with their meaning."""
 
+OBSERVATION_COLUMNS = {
+    "prey": "Prey type, as named on the Prey sheet. Blank only on a rate row (kills found "
+    "over predator_days of monitoring).",
+    "count": "Records of this prey: kills found, or scats holding its remains (a whole "
+    "number; 0 is a record too).",
+    "kind": "kills (found at kill sites) or scats (remains in scats or other diet samples); "
+    "blank means kills.",
+    "detection": "Relative chance that one kill of this prey is recorded (blank means 1), "
+    "e.g. scats produced per individual eaten, from published correction factors.",
+    "scenario": "Scenario under which the records were collected; blank means baseline.",
+    "source": "Study, pack or season the records come from. Rows with the same scenario, "
+    "kind and source form one composition.",
+    "note": "Free text: how the records were collected.",
+    "predator_days": "Rate rows only (kind kills, prey blank): days of monitoring summed "
+    "over the animals monitored, e.g. 4 collared animals for 90 days = 360.",
+}
+"""Columns of the Observations sheet, with their meaning."""
+
 _REQUIRED_COLUMNS = {
     PREDATOR: ("field", "value"),
     SETTINGS: ("field", "value"),
     PREY: tuple(name for name, spec in field_specs(Prey).items() if spec.required),
     SCENARIOS: ("scenario", "field", "value"),
     UNCERTAINTY: ("field", "low", "high"),
+    OBSERVATIONS: ("count",),
 }
 _ENCOUNTER_COLUMNS = ("encounters_per_day", "density_per_km2")
 _ACCEPTED_XLSX = f"{ACCEPTED}; save the file as .xlsx in your spreadsheet program"
@@ -140,6 +163,7 @@ class WorkbookLocator:
         self.prey_rows: list[int] = []
         self.scenario_rows: list[list[int]] = []
         self.uncertainty_rows: list[int] = []
+        self.observation_rows: list[int] = []
 
     def covered(self, where: str) -> bool:
         """Whether a location is a cell hidden under merged cells already reported."""
@@ -198,6 +222,9 @@ class WorkbookLocator:
 
     def uncertainty(self, index: int, key: str) -> str:
         return self._row_cell(UNCERTAINTY, self.uncertainty_rows, index, key)
+
+    def observation(self, index: int, key: str) -> str:
+        return self._row_cell(OBSERVATIONS, self.observation_rows, index, key)
 
 
 # --------------------------------------------------------------------------- reading
@@ -373,6 +400,10 @@ class _Reader:
             self.unchecked |= {self.locator.uncertainty(i, "prey")
                                for i, row in enumerate(raw["uncertainty"]) if "prey" in row}
         raw["settings"], _ = self._field_values(sheets.get(SETTINGS), SETTINGS, Settings)
+        raw["observations"] = self._observations(sheets.get(OBSERVATIONS))
+        if prey_names is None:
+            self.unchecked |= {self.locator.observation(i, "prey")
+                               for i, row in enumerate(raw["observations"]) if "prey" in row}
         return raw
 
     def _find_sheets(self) -> dict[str, Any]:
@@ -563,6 +594,17 @@ class _Reader:
             out.append({k: table.get(k, r) for k in UNCERTAINTY_COLUMNS
                         if table.get(k, r) is not None})
             self.locator.uncertainty_rows.append(r)
+        return out
+
+    def _observations(self, ws: Any) -> list[dict]:
+        if ws is None:
+            return []
+        table = self._table(ws, OBSERVATIONS, OBSERVATION_COLUMNS)
+        out = []
+        for r in table.rows:
+            out.append({k: table.get(k, r) for k in OBSERVATION_COLUMNS
+                        if table.get(k, r) is not None})
+            self.locator.observation_rows.append(r)
         return out
 
 

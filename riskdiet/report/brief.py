@@ -143,7 +143,8 @@ class BriefPlan:
         Every figure the brief draws, in order.
     """
 
-    def __init__(self, result: StudyResult, paper: str = "a4", date: str | None = None):
+    def __init__(self, result: StudyResult, paper: str = "a4", date: str | None = None,
+                 fit=None):
         if paper not in PAPER:
             raise StudyError([Problem("--paper", "a4 or letter", f'"{paper}"')])
         self.result = result
@@ -153,6 +154,11 @@ class BriefPlan:
         self.styles: Styles = make_styles(self.fonts)
         self.width, self.height = frame_size(paper)
         self.figures = figs.brief_figures(result)
+        self.fit = fit  # a FitResult when the study's records were fitted
+        if fit is not None:
+            from riskdiet.report.fit_section import fit_brief_figure
+
+            self.figures.append(fit_brief_figure(fit, len(self.figures) + 1))
 
 
 def _input_name(study: Study) -> str:
@@ -279,7 +285,13 @@ def _appendix(b: Builder, plan: BriefPlan) -> None:
 def brief_story(plan: BriefPlan) -> tuple[list, list[str]]:
     """The flowables of the brief, and the keys of the figures it embeds, in order."""
     b = Builder(plan.result, plan.styles, plan.width, plan.height, plan.figures)
+    if plan.fit is not None:
+        from riskdiet.report.fit_section import FIT, fit_page_one
+
+        b.titles.insert(b.titles.index("Assumptions and cautions"), FIT)
     _title_block(b, plan)
+    if plan.fit is not None:
+        b.para(esc(fit_page_one(b.study, plan.fit)))
     b.summary()
     b.inputs()
     b.classic()
@@ -287,6 +299,10 @@ def brief_story(plan: BriefPlan) -> tuple[list, list[str]]:
     b.kills()
     if b.result.map is not None:
         map_section(b)
+    if plan.fit is not None:
+        from riskdiet.report.fit_section import fit_section
+
+        fit_section(b, plan.fit, plan.figures[-1].key)
     b.cautions()
     _appendix(b, plan)
     return b.story, b.drawn
@@ -355,7 +371,8 @@ def _numbered_canvas(plan: BriefPlan) -> type[Canvas]:
     return NumberedCanvas
 
 
-def build_brief(result: StudyResult, paper: str = "a4", date: str | None = None) -> bytes:
+def build_brief(result: StudyResult, paper: str = "a4", date: str | None = None,
+                fit=None) -> bytes:
     """Lay out the brief and return the PDF bytes.
 
     Parameters
@@ -377,7 +394,7 @@ def build_brief(result: StudyResult, paper: str = "a4", date: str | None = None)
     StudyError
         Invalid paper or date.
     """
-    return _build(BriefPlan(result, paper, date))[0]
+    return _build(BriefPlan(result, paper, date, fit))[0]
 
 
 def _build(plan: BriefPlan, story: tuple[list, list[str]] | None = None
@@ -428,7 +445,7 @@ def _creation_date(date: str) -> Iterator[None]:
 
 def write_brief(result: StudyResult, path: str | Path, paper: str = "a4",
                 date: str | None = None, force: bool = False,
-                figures_dir: str | Path | None = None, outputs=None) -> list[Path]:
+                figures_dir: str | Path | None = None, outputs=None, fit=None) -> list[Path]:
     """Write the brief (and, optionally, its figures) to disk.
 
     The PDF is written to a temporary file beside ``path`` and renamed into
@@ -472,7 +489,7 @@ def write_brief(result: StudyResult, path: str | Path, paper: str = "a4",
     try:
         if path not in outputs.planned:
             outputs.plan(path)
-        plan = BriefPlan(result, paper, date)
+        plan = BriefPlan(result, paper, date, fit)
         if figures_dir is not None:
             for f in plan.figures:
                 for suffix in (".png", ".svg"):

@@ -109,7 +109,7 @@ def test_template_read_me_explains_and_cautions(template):
     data and decisions follow wildlife law and the wildlife authority (project rule)."""
     wb = openpyxl.load_workbook(template)
     assert wb.sheetnames == ["Read me", "Predator", "Prey", "Scenarios", "Uncertainty",
-                             "Settings"]
+                             "Settings", "Observations"]
     text = "\n".join(str(c.value) for row in wb["Read me"].iter_rows() for c in row
                      if c.value is not None)
     for phrase in ("local data", "wildlife law", "wildlife authority", "riskdiet check"):
