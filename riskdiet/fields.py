@@ -274,3 +274,54 @@ def did_you_mean(word: object, options: list[str] | tuple[str, ...]) -> str:
     lower = {o.lower(): o for o in options}
     found = difflib.get_close_matches(word.strip().lower(), list(lower), n=1, cutoff=0.6)
     return f' (did you mean "{lower[found[0]]}"?)' if found else ""
+
+
+WORDS = {
+    # predator
+    "name": "name",
+    "reserve_capacity_mj": "reserve capacity",
+    "energy_levels": "number of energy levels",
+    "daily_cost_mj": "daily energy cost",
+    "body_mass_kg": "body mass",
+    "activity_multiplier": "activity multiplier",
+    "background_mortality": "daily mortality from other causes",
+    "hunting_ability": "hunting ability",
+    "search_area_km2_per_day": "area searched per day",
+    "injured_capture_factor": "capture success while injured (factor)",
+    "injured_extra_cost_mj": "extra daily cost while injured",
+    "injured_extra_mortality": "extra daily mortality while injured",
+    "recovery_days": "recovery time",
+    "currency": "fitness currency",
+    "breeding_threshold": "reserves needed to breed",
+    "season_days": "season length",
+    "season_reserve_threshold": "reserves needed at the end of the season",
+    "start_reserves": "reserves at release",
+    "reserves_after_breeding": "reserves after breeding",
+    "population": "predators in the area",
+    "released_animals": "animals released",
+    # prey
+    "group": "group",
+    "density_per_km2": "density",
+    "encounters_per_day": "encounters per day",
+    "energy_mj": "energy per capture",
+    "handling_days": "handling time",
+    "capture_success": "capture success",
+    "skill_dependent": "dependence on hunting skill",
+    "injury_chance": "chance of injury in a failed attack",
+    "injury_energy_mj": "energy lost to an injury",
+    "fatality_chance": "chance of being killed in an attack",
+    "note": "note",
+    "encounter_share": "share of all encounters",
+}
+"""The words people read for each field (brief, results workbook); the key stays the
+name in study files and JSON, and the glossaries map one to the other."""
+
+UNIT_WORDS = {"MJ": "MJ", "MJ/day": "MJ a day", "1/day": "a day", "day": "days",
+              "km²/day": "km² a day", "1/km²": "per km²", "kg": "kg",
+              "fraction of R": "share of capacity"}
+"""Units as words, where a unit reads better spelled out."""
+
+
+def words(field: str) -> str:
+    """The words for a field (the field name itself when none are defined)."""
+    return WORDS.get(field, field.replace("_", " "))

@@ -32,6 +32,7 @@ from riskdiet.fields import (
     did_you_mean,
     field_specs,
     spec_field,
+    words,
 )
 
 KCAL_TO_MJ = 4.184e-3
@@ -276,10 +277,29 @@ class Change:
     where_field: str = ""
 
     def describe(self) -> str:
+        """The change in field names, e.g. ``upland ewe: density_per_km2 multiplied by 0.2``."""
         target = f"{self.prey}: {self.field}" if self.prey else self.field
         verb = {"set": "set to", "scale": "multiplied by", "add": "increased by"}[self.change]
         return f"{target} {verb} {self.value:g}" if isinstance(self.value, float) else (
             f"{target} {verb} {self.value}")
+
+    def in_words(self) -> str:
+        """The change for people, e.g. ``upland ewe density multiplied by 0.2 (cut to a fifth)``."""
+        what = words(self.field)
+        target = f"{self.prey} {what}" if self.prey else what
+        value = f"{self.value:g}" if isinstance(self.value, float) else str(self.value)
+        if self.change == "scale" and isinstance(self.value, float):
+            return f"{target} multiplied by {value}" + _share_words(self.value)
+        if self.change == "add":
+            return f"{target} increased by {value}"
+        return f"{target} set to {value}"
+
+
+def _share_words(factor: float) -> str:
+    """``(halved)``-style words for common scale factors, else nothing."""
+    named = {0.5: "halved", 0.25: "cut to a quarter", 0.2: "cut to a fifth",
+             0.1: "cut to a tenth", 2.0: "doubled", 3.0: "tripled", 0.0: "removed"}
+    return f" ({named[factor]})" if factor in named else ""
 
 
 @dataclass(frozen=True)
