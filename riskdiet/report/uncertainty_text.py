@@ -119,8 +119,9 @@ def uncertainty_summary(u: UncertaintyResult) -> str:
                 continue
             lines.append(f"  {label}:")
             for ix in sorted(o.indices, key=lambda ix: -ix.total):
-                lines.append(f"    {ix.input}: first {index_text(ix.first, ix.first_low, ix.first_high)}"
-                             f", total {index_text(ix.total, ix.total_low, ix.total_high)}")
+                first = index_text(ix.first, ix.first_low, ix.first_high)
+                total = index_text(ix.total, ix.total_low, ix.total_high)
+                lines.append(f"    {ix.input}: first {first}, total {total}")
     lines += ["", "Measure next: " + measure_next_sentence(u)]
     flagged = u.influential_without_range()
     if flagged:
