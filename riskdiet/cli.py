@@ -303,8 +303,12 @@ def brief(
                 for suffix in (".png", ".svg"):
                     outputs.plan(figures / f"{key}{suffix}")
         result = solve_study(loaded)
+        # a study with ranges gets its intervals and sensitivity (settings draws and seed)
+        unc = (_run_uncertainty(loaded, None, None, 1, None, False, True)
+               if loaded.uncertainty else None)
         written = write_brief(result, target, paper=paper.strip().lower(), date=date,
-                              force=force, figures_dir=figures, outputs=outputs)
+                              force=force, figures_dir=figures, outputs=outputs,
+                              uncertainty=unc)
         outputs.commit()
     typer.echo(f"wrote {written[0]}")
     if figures is not None:
