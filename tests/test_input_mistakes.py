@@ -310,6 +310,7 @@ def test_plausibility_warnings_shown_by_solve_and_brief(tmp_path):
     raw["predator"]["hunting_ability"] = 3.5
     raw["settings"].pop("map_x")
     raw["settings"].pop("map_y")
+    raw["settings"]["draws"] = 8  # the brief's uncertainty section, kept quick
     path = tmp_path / "study.json"
     path.write_text(json.dumps(raw))
     solved = cli("solve", path)
