@@ -33,8 +33,8 @@ from riskdiet.analysis.uncertainty import (
     draw_cells,
     outcome_matrix,
     run_uncertainty,
-    solve_all,
     sobol_outcomes,
+    solve_all,
     study_goal,
 )
 from riskdiet.core.stats.sensitivity import sobol_analysis
