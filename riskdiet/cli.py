@@ -325,8 +325,12 @@ def brief(
         if loaded.observations and loaded.settings.fit:
             # the brief's "Fit to field records" section (MODEL.md section 10)
             fitted = _run_fit(loaded, 1)
+        # a study with ranges gets its intervals and sensitivity (settings draws and seed)
+        unc = (_run_uncertainty(loaded, None, None, 1, None, False, True)
+               if loaded.uncertainty else None)
         written = write_brief(result, target, paper=paper.strip().lower(), date=date,
-                              force=force, figures_dir=figures, outputs=outputs, fit=fitted)
+                              force=force, figures_dir=figures, outputs=outputs, fit=fitted,
+                              uncertainty=unc)
         outputs.commit()
     typer.echo(f"wrote {written[0]}")
     if figures is not None:
@@ -533,6 +537,117 @@ def _scheduler_client(address: str):
                                   f"({type(exc).__name__})")]) from None
     with client:
         yield client
+
+
+@app.command()
+def uncertainty(
+    study: Path = typer.Argument(..., help=STUDY_HELP),
+    draws: int | None = typer.Option(None, "--draws", min=2, help="Latin hypercube draws "
+                                     "(default: the study's draws setting, 1000)."),
+    seed: int | None = typer.Option(None, "--seed", min=0, help="Seed of the draws (default: "
+                                    "the study's seed setting, 1)."),
+    workers: int = typer.Option(1, "--workers", min=1, help="Local worker processes."),
+    scheduler: str | None = typer.Option(None, "--scheduler", help="Address of a running Dask "
+                                         "distributed scheduler, e.g. tcp://10.0.0.5:8786 "
+                                         "(needs riskdiet\\[cluster])."),
+    as_json: bool = typer.Option(False, "--json", help="Print one JSON document to stdout."),
+    out: Path | None = typer.Option(None, "--out", help="Write the results workbook (.xlsx) "
+                                    "with the uncertainty sheets."),
+    no_sobol: bool = typer.Option(False, "--no-sobol", help="Skip the Sobol indices (faster)."),
+    quiet: bool = typer.Option(False, "--quiet", help="No progress bar."),
+    force: bool = typer.Option(False, "--force", help="Replace existing output files."),
+) -> None:
+    """How sure: intervals, chances each scenario beats baseline, what to measure next.
+
+    Example (after riskdiet demo): riskdiet uncertainty riskdiet-demo/harrow-vale.xlsx
+    --draws 200
+    """
+    from riskdiet.io.atomic import OutputSet
+
+    outputs = OutputSet(force, (study,))
+    with _guard(outputs):
+        if out is not None and out.suffix.lower() != ".xlsx":
+            raise StudyError([Problem(f"--out {out}", "a file name ending in .xlsx",
+                                      f'"{out.suffix or "no ending"}"')])
+        loaded = _load(study)
+        if not loaded.uncertainty:
+            raise StudyError([Problem("Uncertainty", "at least one range (a row of the "
+                                      "Uncertainty sheet, or the uncertainty list)", "none")],
+                             loaded.source or None)
+        if out is not None:
+            outputs.plan(out)
+        result = _run_uncertainty(loaded, draws, seed, workers, scheduler, quiet, not no_sobol)
+        if out is not None:
+            from riskdiet.analysis.study import solve as solve_study
+            from riskdiet.io.results_workbook import write_results_workbook
+            from riskdiet.io.uncertainty_tables import uncertainty_tables
+
+            write_results_workbook(solve_study(loaded), out, force, outputs=outputs,
+                                   extra_tables=uncertainty_tables(result))
+        if as_json:
+            text = json.dumps(result.to_dict(), indent=1, allow_nan=False)
+        else:
+            from riskdiet.report.uncertainty_text import uncertainty_summary
+
+            text = uncertainty_summary(result)
+        written = outputs.commit()
+    if as_json:
+        typer.echo(text)
+    else:
+        _stdout().print(text)
+    for path in written:
+        typer.echo(f"wrote {path}", err=as_json)
+
+
+def _quiet_progress(quiet: bool):
+    """A progress bar on a terminal only: not with --quiet, in CI, or when output is piped."""
+    import os
+
+    from rich.progress import Progress
+
+    console = Console(stderr=True)
+    silent = quiet or not console.is_interactive or bool(os.environ.get("CI"))
+    return Progress(console=console, disable=silent, transient=True)
+
+
+def _run_uncertainty(study, draws, seed, workers: int, scheduler: str | None, quiet: bool,
+                     sobol: bool):
+    from riskdiet.analysis.uncertainty import run_uncertainty
+
+    with _quiet_progress(quiet) as bar:
+        task = bar.add_task("solving draws", total=None)
+
+        def progress(done: int, total: int) -> None:
+            bar.update(task, completed=done, total=total)
+
+        def run(executor):
+            return run_uncertainty(study, draws, seed, executor, sobol, progress=progress)
+
+        if scheduler:
+            with _scheduler_client(scheduler) as client:
+                return run(client.get_executor())
+        if workers > 1:
+            return _in_pool(run, workers)
+        return run(None)
+
+
+def _in_pool(run, workers: int):
+    """Run with a local process pool; Ctrl-C or a dead worker stops every worker."""
+    from concurrent.futures import ProcessPoolExecutor
+    from concurrent.futures.process import BrokenProcessPool
+
+    pool = ProcessPoolExecutor(max_workers=workers, initializer=_ignore_interrupt)
+    try:
+        return run(pool)
+    except BrokenProcessPool:
+        raise RiskdietError("a worker process died (out of memory, or killed); nothing was "
+                            "written. Try fewer --workers.") from None
+    except BaseException:
+        for process in list((getattr(pool, "_processes", None) or {}).values()):
+            process.terminate()
+        raise
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
 
 
 @app.command("fit")

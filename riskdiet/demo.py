@@ -83,6 +83,11 @@ def write_demo(folder: str | Path = DEFAULT_FOLDER, force: bool = False) -> Demo
     study = load_study(files.workbook)
     result = solve(study)
     date, _ = brief_date(study)
-    write_results_workbook(result, files.results, force, date=date)
-    write_brief(result, files.brief, force=force)
+    from riskdiet.analysis.uncertainty import run_uncertainty
+    from riskdiet.io.uncertainty_tables import uncertainty_tables
+
+    unc = run_uncertainty(study) if study.uncertainty else None
+    write_results_workbook(result, files.results, force, date=date,
+                           extra_tables=uncertainty_tables(unc) if unc else ())
+    write_brief(result, files.brief, force=force, uncertainty=unc)
     return files

@@ -323,6 +323,18 @@ class UncertainInput:
     mode: float | None = None
     note: str = ""
     where: str = ""
+    scenario: str | None = None
+    """Scenario whose final value the range replaces; None: the baseline value, in every
+    scenario (MODEL.md section 9)."""
+
+    @property
+    def name(self) -> str:
+        """``FIELD`` (predator) or ``PREY:FIELD``, as outputs name an input."""
+        return f"{self.prey}:{self.field}" if self.prey else self.field
+
+
+GRID_SHAPE_FIELDS = ("energy_levels", "breeding_threshold", "season_days", "currency")
+"""Fields that change the grid's shape: no uncertainty range on them (MODEL.md section 9)."""
 
 
 @dataclass(frozen=True)
@@ -360,6 +372,18 @@ class Settings:
         False, kind=BOOLEAN, unit="yes/no",
         description="Let the compositions of records vary more than chance allows "
         "(Dirichlet-multinomial; needs at least two compositions).")
+
+    draws: int = spec_field(
+        1000, kind=INTEGER, unit="count", low=2, high=100000,
+        description="Latin hypercube draws of the uncertain inputs (uncertainty analysis).")
+    seed: int = spec_field(
+        1, kind=INTEGER, unit="count", low=0, high=2**32 - 1,
+        description="Seed of the draws: the same seed gives the same numbers.")
+    goal: str | None = spec_field(
+        kind=TEXT, unit="fewer:NAME or higher:breeding",
+        description="Management goal scenarios are judged by: fewer:NAME (fewer cohort kills "
+        "of the prey or group NAME) or higher:breeding (blank: fewer:livestock when a group "
+        "livestock exists, else higher:breeding).")
 
 
 OBSERVATION_KINDS = ("kills", "scats")

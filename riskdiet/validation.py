@@ -27,6 +27,7 @@ from riskdiet.fields import (
 from riskdiet.model import (
     BASELINE,
     CHANGE_KINDS,
+    GRID_SHAPE_FIELDS,
     SHAPES,
     Change,
     Predator,
@@ -322,7 +323,8 @@ def build_study(raw: Any, locator: Locator | None = None, source: str = "") -> S
         problems.extend(range_problems(predator, built_prey, loc.predator, loc.prey))
 
     scenarios = _build_scenarios(raw.get("scenarios") or [], loc, problems)
-    uncertainty = _build_uncertainty(raw.get("uncertainty") or [], loc, problems, prey)
+    uncertainty = _build_uncertainty(raw.get("uncertainty") or [], loc, problems, prey,
+                                     [sc.name for sc in scenarios])
 
     if not problems and predator is not None:
         for sc in scenarios[1:]:
@@ -335,6 +337,12 @@ def build_study(raw: Any, locator: Locator | None = None, source: str = "") -> S
                 lambda i, f, sc=sc, y2=y2: _scenario_where(sc, y2[i].name, f))
             problems.extend(found)
     problems += _settings_problems(settings, loc)
+    if not problems and predator is not None:
+        from riskdiet.uncertainty_rules import goal_problems, range_rules
+
+        found, range_notices = range_rules(predator, tuple(prey), scenarios, uncertainty)
+        problems += found + goal_problems(settings.goal, prey, loc.settings("goal"))
+        notices += range_notices
     observations = _observations(raw, loc, prey, scenarios, settings, problems)
     if problems:
         raise StudyError(problems, source or None)
@@ -513,7 +521,7 @@ def _build_scenarios(raw: Any, loc: Locator, problems: list[Problem]) -> list[Sc
 
 
 def _build_uncertainty(raw: Any, loc: Locator, problems: list[Problem],
-                       prey: list[Prey]) -> list[UncertainInput]:
+                       prey: list[Prey], scenario_names: list[str] = ()) -> list[UncertainInput]:
     out: list[UncertainInput] = []
     if not isinstance(raw, list):
         problems.append(Problem("uncertainty", "a list of ranges", describe(raw)))
@@ -553,6 +561,17 @@ def _build_uncertainty(raw: Any, loc: Locator, problems: list[Problem],
         if shape not in SHAPES:
             problems.append(Problem(where("shape"), "one of " + ", ".join(SHAPES),
                                     describe(item.get("shape"))))
+        if field in GRID_SHAPE_FIELDS and target is None:
+            problems.append(Problem(where("field"), "a field that does not change the grid's "
+                                    "shape (no range on " + ", ".join(GRID_SHAPE_FIELDS) + ")",
+                                    describe(item.get("field"))))
+        scenario = item.get("scenario")
+        scenario = None if is_blank(scenario) else str(scenario).strip()
+        if scenario is not None and scenario not in scenario_names:
+            problems.append(Problem(where("scenario"), "blank (every scenario) or a scenario of "
+                                    "the study (" + ", ".join(scenario_names) + ")",
+                                    describe(scenario) + did_you_mean(scenario,
+                                                                      list(scenario_names))))
         if len(problems) > before:
             continue
         if not low < high:
@@ -563,6 +582,10 @@ def _build_uncertainty(raw: Any, loc: Locator, problems: list[Problem],
             problems.append(Problem(where("mode"), f"a mode from {low:g} to {high:g}",
                                     describe(mode)))
             continue
+        if shape != "triangular" and mode is not None:
+            problems.append(Problem(where("mode"), f"no mode for a {shape} range (only "
+                                    "triangular has one)", describe(mode)))
+            continue
         if shape == "loguniform" and low <= 0:
             problems.append(Problem(where("low"), "a number > 0 for a log-uniform range",
                                     describe(low)))
@@ -572,5 +595,5 @@ def _build_uncertainty(raw: Any, loc: Locator, problems: list[Problem],
             if not spec.in_range(value):
                 problems.append(Problem(where(key), spec.expected(), describe(value)))
         out.append(UncertainInput(target, field, low, high, shape, mode,
-                                  str(item.get("note") or ""), where("field")))
+                                  str(item.get("note") or ""), where("field"), scenario))
     return out

@@ -80,8 +80,9 @@ def test_check_lists_scenarios_uncertainty_settings_and_warnings():
         assert sc.name in text
         for ch in sc.changes:
             assert ch.describe() in text
-    unc = line_of(text, "wild boar   injury_chance")
-    assert unc.split()[3:7] == ["0.2", "0.5", "triangular", "0.35"]
+    unc = next(line for line in text.splitlines()
+               if line.split()[:3] == ["wild", "boar", "injury_chance"])
+    assert unc.split()[3:8] == ["0.2", "0.5", "triangular", "0.35", "(every)"]
     assert "2026-12-01" in line_of(text, "report_date")
     assert study.notices and all(str(n) in text for n in study.notices)
     assert "wildlife law" in text

@@ -23,9 +23,11 @@ DEMO_JSON = ROOT / "examples" / "harrow-vale.json"
 
 
 def study(tmp_path: Path, scenarios: list | None = None, **settings) -> Path:
-    """The demo study without its settings map (fast), as a JSON file in tmp_path/in."""
+    """The demo study without its settings map and with 8 uncertainty draws (fast), as a
+    JSON file in tmp_path/in."""
     raw = json.loads(DEMO_JSON.read_text())
-    raw["settings"] = {"study_name": "test", "report_date": "2026-12-01", **settings}
+    raw["settings"] = {"study_name": "test", "report_date": "2026-12-01", "draws": 8,
+                       **settings}
     if scenarios is not None:
         raw["scenarios"] = scenarios
     folder = tmp_path / "in"
@@ -235,7 +237,7 @@ def test_brief_with_long_unbroken_texts(tmp_path):
     """Notes of 3000 characters without a space (a pasted link) made the brief's table
     layout give other columns a negative width (ValueError); the brief is now written."""
     raw = json.loads(DEMO_JSON.read_text())
-    raw["settings"] = {"report_date": "2026-12-01", "study_name": "S" * 450}
+    raw["settings"] = {"report_date": "2026-12-01", "study_name": "S" * 450, "draws": 8}
     raw["prey"][0]["note"] = "N" * 3000
     raw["scenarios"][0]["note"] = "Q" * 3000
     path = tmp_path / "study.json"

@@ -126,6 +126,9 @@ def test_bounds_hold_at_the_limit():
     raw = demo_raw()
     raw["predator"].update(population=1_000_000, season_days=3650)
     raw["prey"][0]["name"] = "x" * 80
+    for row in raw["uncertainty"]:  # the demo's ranges name the prey
+        if row["prey"] == "forest deer":
+            row["prey"] = "x" * 80
     build_study(raw)
 
 
@@ -307,6 +310,7 @@ def test_plausibility_warnings_shown_by_solve_and_brief(tmp_path):
     raw["predator"]["hunting_ability"] = 3.5
     raw["settings"].pop("map_x")
     raw["settings"].pop("map_y")
+    raw["settings"]["draws"] = 8  # the brief's uncertainty section, kept quick
     path = tmp_path / "study.json"
     path.write_text(json.dumps(raw))
     solved = cli("solve", path)

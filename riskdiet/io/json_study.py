@@ -67,7 +67,8 @@ def study_to_dict(study: Study) -> dict:
         ],
         "uncertainty": [
             {"prey": u.prey, "field": u.field, "low": u.low, "high": u.high, "shape": u.shape,
-             "mode": u.mode, "note": u.note} for u in study.uncertainty
+             "mode": u.mode, "note": u.note, "scenario": u.scenario}
+            for u in study.uncertainty
         ],
         "observations": [record(o, Observation) for o in study.observations],
     }

@@ -113,8 +113,11 @@ def _cell(value):
 
 
 def write_results_workbook(result: StudyResult, path: str | Path, force: bool = False,
-                           date: str | None = None, outputs: OutputSet | None = None) -> Path:
+                           date: str | None = None, outputs: OutputSet | None = None,
+                           extra_tables: list[Table] | tuple[Table, ...] = ()) -> Path:
     """Write the results workbook (summary, comparison, kills, scenarios, provenance).
+
+    ``extra_tables`` (e.g. the uncertainty sheets) follow the result's own tables.
 
     Numbers are stored as numbers with number formats; headers carry units and
     are frozen. The file is written to a temporary name and renamed (when
@@ -126,7 +129,7 @@ def write_results_workbook(result: StudyResult, path: str | Path, force: bool = 
 
     from openpyxl import Workbook
 
-    tables = results_tables(result, date)
+    tables = results_tables(result, date) + list(extra_tables)
     source = (Path(result.study.source),) if result.study.source else ()
     day = dt.date.fromisoformat(_date_of(tables))
 

@@ -101,7 +101,9 @@ _README_TEXT = (
      "set (replace), scale (multiply) or add."),
     ("text", "Uncertainty (optional): a plausible range (low to high) for an uncertain "
      "input, with its shape: uniform, triangular (with its most likely value in mode) or "
-     "loguniform."),
+     "loguniform. Leave scenario blank to replace the baseline value in every scenario (a "
+     "scale or add then acts on the drawn value), or name a scenario to replace its final "
+     "value. riskdiet uncertainty draws from these ranges."),
     ("text", "Settings (optional): the study's name, the date printed on the brief, and a "
      "short description."),
     ("text", "Observations (optional): what the predator was seen to eat, for riskdiet fit. "
@@ -374,8 +376,8 @@ def build_workbook(study: Study | dict | None = None) -> Any:
     shape = _list_validation(SHAPES, "shape", UNCERTAINTY_COLUMNS["shape"])
     _table_sheet(wb.create_sheet(UNCERTAINTY), list(UNCERTAINTY_COLUMNS), UNCERTAINTY_COLUMNS,
                  {"shape": shape}, list(raw.get("uncertainty") or []),
-                 {"prey", "field", "shape", "note"},
-                 {"prey": 20, "field": 26, "shape": 12, "note": 60})
+                 {"prey", "field", "shape", "note", "scenario"},
+                 {"prey": 20, "field": 26, "shape": 12, "note": 60, "scenario": 24})
     _field_value_sheet(wb.create_sheet(SETTINGS), Settings, dict(raw.get("settings") or {}),
                        {})
     _observations_sheet(wb.create_sheet(OBSERVATIONS), list(raw.get("observations") or []))

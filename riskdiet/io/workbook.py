@@ -107,6 +107,8 @@ UNCERTAINTY_COLUMNS = {
     "shape": "uniform, triangular (give mode) or loguniform (low above 0); blank means "
     "uniform.",
     "mode": "Most likely value (triangular only).",
+    "scenario": "Blank: the range replaces the baseline value in every scenario; a scenario's "
+    "name: it replaces that scenario's final value.",
     "note": "Where the range comes from.",
 }
 """Columns of the Uncertainty sheet, with their meaning."""

@@ -144,7 +144,7 @@ class BriefPlan:
     """
 
     def __init__(self, result: StudyResult, paper: str = "a4", date: str | None = None,
-                 fit=None):
+                 fit=None, uncertainty=None):
         if paper not in PAPER:
             raise StudyError([Problem("--paper", "a4 or letter", f'"{paper}"')])
         self.result = result
@@ -159,6 +159,12 @@ class BriefPlan:
             from riskdiet.report.fit_section import fit_brief_figure
 
             self.figures.append(fit_brief_figure(fit, len(self.figures) + 1))
+        self.fit_figure = self.figures[-1].key if fit is not None else None
+        self.uncertainty = uncertainty  # riskdiet.analysis.uncertainty.UncertaintyResult
+        if uncertainty is not None:
+            from riskdiet.report.uncertainty_section import uncertainty_figures
+
+            self.figures += uncertainty_figures(uncertainty, len(self.figures) + 1)
 
 
 def _input_name(study: Study) -> str:
@@ -191,11 +197,13 @@ def _title_block(b: Builder, plan: BriefPlan) -> None:
     n = b.number
     maps = (f" Section {n(MAPS)} maps how the decisions, the value of hunting skill and the "
             "kills change over two inputs." if MAPS in b.titles else "")
+    unc = (f" Section {n('Uncertainty and sensitivity')} says how sure these numbers are and "
+           "which input to measure next." if "Uncertainty and sensitivity" in b.titles else "")
     b.para("<b>How to read this brief.</b> Section 1 gives the findings in plain words and the "
            f"key numbers. Section {n('Inputs')} lists every input with its source; section "
            f"{n('Classic prey model')} sets the classic prey model beside the state-dependent "
            f"decisions of section {n('Decisions by reserves')}; section "
-           f"{n('Predicted kills')} turns the decisions into predicted kills.{maps} Section "
+           f"{n('Predicted kills')} turns the decisions into predicted kills.{maps}{unc} Section "
            f"{n('Assumptions and cautions')} states what the model assumes and the cautions "
            "that apply to any use of these numbers; section "
            f"{n('Technical appendix')} holds the technical details needed to check or "
@@ -289,10 +297,26 @@ def brief_story(plan: BriefPlan) -> tuple[list, list[str]]:
         from riskdiet.report.fit_section import FIT, fit_page_one
 
         b.titles.insert(b.titles.index("Assumptions and cautions"), FIT)
+    u = plan.uncertainty
+    if u is not None:
+        from riskdiet.report import uncertainty_section
+
+        b.titles.insert(b.titles.index("Assumptions and cautions"),
+                        uncertainty_section.UNCERTAINTY)
     _title_block(b, plan)
     if plan.fit is not None:
         b.para(esc(fit_page_one(b.study, plan.fit)))
+    start = len(b.story)
     b.summary()
+    if u is not None:
+        # page 1: the intervals go right after the summary's opening paragraphs, before the
+        # findings of each scenario (the second conditional page break of the summary)
+        breaks = [i for i in range(start, len(b.story))
+                  if type(b.story[i]).__name__ == "CondPageBreak"]
+        at = breaks[1] if len(breaks) > 1 else len(b.story)
+        tail, b.story = b.story[at:], b.story[:at]
+        uncertainty_section.page_one(b, u)
+        b.story += tail
     b.inputs()
     b.classic()
     b.decisions()
@@ -302,7 +326,9 @@ def brief_story(plan: BriefPlan) -> tuple[list, list[str]]:
     if plan.fit is not None:
         from riskdiet.report.fit_section import fit_section
 
-        fit_section(b, plan.fit, plan.figures[-1].key)
+        fit_section(b, plan.fit, plan.fit_figure)
+    if u is not None:
+        uncertainty_section.section(b, u)
     b.cautions()
     _appendix(b, plan)
     return b.story, b.drawn
@@ -372,7 +398,7 @@ def _numbered_canvas(plan: BriefPlan) -> type[Canvas]:
 
 
 def build_brief(result: StudyResult, paper: str = "a4", date: str | None = None,
-                fit=None) -> bytes:
+                fit=None, uncertainty=None) -> bytes:
     """Lay out the brief and return the PDF bytes.
 
     Parameters
@@ -383,6 +409,9 @@ def build_brief(result: StudyResult, paper: str = "a4", date: str | None = None,
         ``a4`` (default) or ``letter``.
     date : str, optional
         ``YYYY-MM-DD``; see :func:`brief_date` for the default.
+    uncertainty : UncertaintyResult, optional
+        :func:`riskdiet.analysis.uncertainty.run_uncertainty` of the study: adds
+        the page-1 intervals and the *Uncertainty and sensitivity* section.
 
     Returns
     -------
@@ -394,7 +423,7 @@ def build_brief(result: StudyResult, paper: str = "a4", date: str | None = None,
     StudyError
         Invalid paper or date.
     """
-    return _build(BriefPlan(result, paper, date, fit))[0]
+    return _build(BriefPlan(result, paper, date, fit, uncertainty))[0]
 
 
 def _build(plan: BriefPlan, story: tuple[list, list[str]] | None = None
@@ -445,7 +474,8 @@ def _creation_date(date: str) -> Iterator[None]:
 
 def write_brief(result: StudyResult, path: str | Path, paper: str = "a4",
                 date: str | None = None, force: bool = False,
-                figures_dir: str | Path | None = None, outputs=None, fit=None) -> list[Path]:
+                figures_dir: str | Path | None = None, outputs=None, fit=None,
+                uncertainty=None) -> list[Path]:
     """Write the brief (and, optionally, its figures) to disk.
 
     The PDF is written to a temporary file beside ``path`` and renamed into
@@ -467,6 +497,8 @@ def write_brief(result: StudyResult, path: str | Path, paper: str = "a4",
     outputs : riskdiet.io.atomic.OutputSet, optional
         Stage the files in this set (the caller commits it); by default the
         PDF and figures are renamed into place together at the end.
+    uncertainty : UncertaintyResult, optional
+        See :func:`build_brief`.
 
     Returns
     -------
@@ -489,7 +521,7 @@ def write_brief(result: StudyResult, path: str | Path, paper: str = "a4",
     try:
         if path not in outputs.planned:
             outputs.plan(path)
-        plan = BriefPlan(result, paper, date, fit)
+        plan = BriefPlan(result, paper, date, fit, uncertainty)
         if figures_dir is not None:
             for f in plan.figures:
                 for suffix in (".png", ".svg"):

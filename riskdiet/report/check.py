@@ -128,10 +128,12 @@ def uncertainty_section(study: Study) -> str:
     if not study.uncertainty:
         return "Uncertainty ranges: none"
     rows = [[u.prey or "(predator)", u.field, f"{u.low:.4g}", f"{u.high:.4g}", u.shape,
-             "" if u.mode is None else f"{u.mode:.4g}", u.note] for u in study.uncertainty]
+             "" if u.mode is None else f"{u.mode:.4g}", u.scenario or "(every)", u.note]
+            for u in study.uncertainty]
     return "\n".join([f"Uncertainty ranges ({len(rows)})",
-                      table(["prey", "field", "low", "high", "shape", "mode", "note"], rows,
-                            right=[False, False, True, True, False, True, False])])
+                      table(["prey", "field", "low", "high", "shape", "mode", "scenario",
+                             "note"], rows,
+                            right=[False, False, True, True, False, True, False, False])])
 
 
 def settings_section(study: Study) -> str:
