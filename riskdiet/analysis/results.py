@@ -180,12 +180,16 @@ class StudyResult:
         Version that computed the results.
     map : MapResult or None
         The map asked for in the study's settings (``map_x``, ``map_y``), if any.
+    verdict : dict or None
+        The scenarios ranked on the study's goal, in words (``goal``, ``ranking``,
+        ``summary``, ``sentences``; :mod:`riskdiet.analysis.verdict`).
     """
 
     study: Study
     scenarios: tuple[ScenarioResult, ...]
     riskdiet_version: str = __version__
     map: MapResult | None = None
+    verdict: dict | None = None
 
     def scenario(self, name: str) -> ScenarioResult:
         for s in self.scenarios:
@@ -205,6 +209,7 @@ class StudyResult:
             "input_file": self.study.source,
             "input_sha256": self.study.source_sha256,
             "scenarios": [s.to_dict() for s in self.scenarios],
+            "verdict": self.verdict,
             **({"map": {"scenario": self.map.request.scenario,
                         "x": self.map.request.x.target, "y": self.map.request.y.target,
                         "columns": self.map.columns(), "rows": self.map.rows()}}

@@ -30,6 +30,7 @@ from riskdiet.analysis.predictions import (
     steady_state_kills,
 )
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult, policy_names
+from riskdiet.analysis.verdict import verdict
 from riskdiet.core.classic import classic_prey_model
 from riskdiet.core.grid import Grid, make_grid
 from riskdiet.core.solver import Solution, solve_grid
@@ -201,7 +202,11 @@ def solve(study: Study, executor: Executor | None = None,
     done = len(results)
     step = None if progress is None else (lambda row, _rows: progress(done + row, total))
     surface = None if request is None else make_map(study, request, executor, progress=step)
-    return StudyResult(study, tuple(results), map=surface)
+    solved = StudyResult(study, tuple(results), map=surface)
+    v = verdict(solved)
+    return dataclasses.replace(solved, verdict={
+        "goal": v.goal_words, "ranking": list(v.ranking), "summary": v.summary,
+        "sentences": v.sentences})
 
 
 __all__ = ["CONDITIONS", "ScenarioResult", "StudyResult", "grid_check", "solve", "solve_scenario",

@@ -262,7 +262,7 @@ class Builder:
         sc = self.study.scenario(name)
         if not sc.changes:
             return "the inputs as given"
-        return "; ".join(c.describe() for c in sc.changes)
+        return "; ".join(c.in_words() for c in sc.changes)
 
     # --- 2. summary --------------------------------------------------------------------------
     def summary(self) -> None:
@@ -274,6 +274,7 @@ class Builder:
                   f"{self.number('Inputs')} shows the inputs behind them and section "
                   f"{self.number('Assumptions and cautions')} what the model assumes.")
         self.para(esc(grid_summary(self.result)))
+        self.verdict()
         for s in self.result.scenarios:
             self.story.append(CondPageBreak(90))
             head = [Paragraph(esc(f"Scenario: {s.name}"), self.s.h2),
@@ -285,6 +286,23 @@ class Builder:
         self.cohort_table(self.result.scenarios)
         self.sub("Key numbers")
         self.comparison()
+
+    def verdict(self) -> None:
+        """The answer first: the scenarios ranked on the study's goal, each in one sentence.
+
+        No conditional page break here, so page 1 always starts with it.
+        """
+        from riskdiet.analysis.verdict import verdict
+
+        v = verdict(self.result)
+        self.para("Verdict", self.s.h2)
+        self.para(f"<b>{esc(v.summary)}</b>")
+        lines = []
+        for s in self.result.scenarios:
+            change = "" if not self.study.scenario(s.name).changes else (
+                f" <i>(Changes: {esc(self.changes_text(s.name))}.)</i>")
+            lines.append(esc(v.sentences[s.name]) + change)
+        self.bullets(lines)
 
     def cohort_table(self, scenarios) -> None:
         """The released cohort per scenario: kills by group, survival, breeding."""
@@ -399,7 +417,7 @@ class Builder:
         self.sub("Scenarios")
         rows = [["scenario", "changes to the baseline", "note"]]
         for sc in self.study.scenarios:
-            changes = "<br/>".join(esc(c.describe()) for c in sc.changes) or "—"
+            changes = "<br/>".join(esc(c.in_words()) for c in sc.changes) or "—"
             rows.append([esc(sc.name), changes, esc(sc.note)])
         self.tables(rows, [Column(max_share=0.25), Column(max_share=0.45),
                            Column(max_share=0.45)])

@@ -114,9 +114,15 @@ def grid_check_line(result: ScenarioResult) -> str:
 
 
 def solve_summary(result: StudyResult) -> str:
-    """Summary of every scenario of a study."""
+    """Summary of every scenario of a study, the verdict on the study's goal first."""
+    from riskdiet.analysis.verdict import verdict
+
+    v = verdict(result)
     head = [f"{result.study.name} (riskdiet {result.riskdiet_version})",
-            f"Input: {result.study.source}  SHA-256 {result.study.source_sha256}", "", ""]
+            f"Input: {result.study.source}  SHA-256 {result.study.source_sha256}", "",
+            f"Verdict: {v.summary}"]
+    head += [f"  {v.sentences[s.name]}" for s in result.scenarios]
+    head += ["", ""]
     return "\n".join(head) + "\n\n".join(scenario_summary(s) for s in result.scenarios)
 
 
