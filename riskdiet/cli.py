@@ -215,12 +215,7 @@ def solve(
             if loaded.notices:
                 text = warnings_text(loaded) + "\n\n" + text
         written = outputs.commit()
-    if as_json:
-        typer.echo(text)
-    else:
-        _stdout().print(text)
-    for path in written:
-        typer.echo(f"wrote {path}", err=as_json)
+    _emit(text, as_json, written)
 
 
 @app.command()
@@ -591,12 +586,17 @@ def uncertainty(
 
             text = uncertainty_summary(result)
         written = outputs.commit()
+    _emit(text, as_json, written)
+
+
+def _emit(text: str, as_json: bool, written, note: str = "") -> None:
+    """Print a command's document, then the files it wrote (to stderr beside JSON)."""
     if as_json:
         typer.echo(text)
     else:
         _stdout().print(text)
     for path in written:
-        typer.echo(f"wrote {path}", err=as_json)
+        typer.echo(f"wrote {path}{note}", err=as_json)
 
 
 def _quiet_progress(quiet: bool):
@@ -688,35 +688,21 @@ def fit_command(
 
             text = fit_summary(result)
         written = outputs.commit()
-    if as_json:
-        typer.echo(text)
-    else:
-        _stdout().print(text)
-    for path in written:
-        typer.echo(f"wrote {path} (the fitted study; the input is unchanged)", err=as_json)
+    _emit(text, as_json, written, " (the fitted study; the input is unchanged)")
 
 
 def _run_fit(study, workers: int):
     """Fit with a progress bar on a terminal (none in CI or when piped)."""
-    import os
-
-    from rich.progress import Progress
-
     from riskdiet.analysis.fit import fit_study
 
-    console = Console(stderr=True)
-    silent = not console.is_interactive or bool(os.environ.get("CI"))
-    with Progress(console=console, disable=silent, transient=True) as bar:
+    with _quiet_progress(False) as bar:
         task = bar.add_task("fitting", total=1.0)
 
         def progress(stage: str, done: float) -> None:
             bar.update(task, completed=done, description=stage)
 
-        if workers > 1:
-            from concurrent.futures import ProcessPoolExecutor
-
-            with ProcessPoolExecutor(max_workers=workers, initializer=_ignore_interrupt) as pool:
-                return fit_study(study, pool, progress)
+        if workers > 1:  # Ctrl-C or a dead worker stops every worker, as for maps
+            return _in_pool(lambda pool: fit_study(study, pool, progress), workers)
         return fit_study(study, progress=progress)
 
 

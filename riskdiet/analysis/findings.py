@@ -11,6 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult
+from riskdiet.analysis.wording import amount
 
 WILD_GROUPS = {"wild", ""}
 
@@ -87,13 +88,6 @@ def _describe(pattern: AttackPattern, name: str, mj_per_fraction: float) -> str:
     return f"{name} at reserves of {runs}"
 
 
-def _amount(x: float) -> str:
-    """An expected count in words-friendly form: whole from 10 up, one decimal below."""
-    if x >= 10:
-        return f"{x:,.0f}"
-    return "fewer than 0.1" if 0 < x < 0.05 else f"{x:.1f}"
-
-
 def cohort_sentences(result: ScenarioResult) -> list[str]:
     """What the released animals do within the horizon (MODEL.md section 5)."""
     c = result.cohort
@@ -102,7 +96,7 @@ def cohort_sentences(result: ScenarioResult) -> list[str]:
     when = (f"over the {c.horizon_days}-day season" if result.currency == "season"
             else f"in the first {c.horizon_days} days")
     groups = sorted(c.kills_by_group, key=lambda g: (g.lower() in WILD_GROUPS, g))
-    kills = _list([f"{_amount(c.kills_by_group[g])} {g}" for g in groups])
+    kills = _list([f"{amount(c.kills_by_group[g])} {g}" for g in groups])
     animals = "animal" if c.animals == 1 else "animals"
     out = [f"The {c.animals} released {animals} are expected to kill {kills} prey {when}."]
     median = ("more than half are expected to be alive at the end" if c.median_survival_days
@@ -110,8 +104,8 @@ def cohort_sentences(result: ScenarioResult) -> list[str]:
     alive = (f"{100 * c.alive_at_horizon:.0f} % of them" if c.alive_at_horizon >= 0.005
              else "almost none of them")
     out.append(f"{alive[0].upper()}{alive[1:]} are expected to be alive at the end "
-               f"({_amount(c.survivors)} animals); {median}"
-               + (f"; they are expected to breed {_amount(c.breeding_events)} times."
+               f"({amount(c.survivors)} animals); {median}"
+               + (f"; they are expected to breed {amount(c.breeding_events)} times."
                   if c.breeding_events is not None else "."))
     return out
 
@@ -281,7 +275,7 @@ def _versus_baseline(result: ScenarioResult, baseline: ScenarioResult) -> list[s
             new = a.kills_by_group.get(group, 0.0)
             if base > 0 and abs(new - base) / base >= 0.05:
                 out.append(f"Kills of {group} prey by the released animals within the horizon "
-                           f"change from {_amount(base)} to {_amount(new)} "
+                           f"change from {amount(base)} to {amount(new)} "
                            f"({100 * (new - base) / base:+.0f} %).")
         if abs(a.alive_at_horizon - b.alive_at_horizon) >= 0.01:
             out.append(f"The share of released animals alive at the horizon changes from "

@@ -14,6 +14,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from riskdiet.analysis.results import ScenarioResult, StudyResult
+from riskdiet.analysis.wording import amount
 from riskdiet.uncertainty_rules import parse_goal
 
 WILD = {"wild", ""}
@@ -41,14 +42,6 @@ class Verdict:
     ranking: tuple[str, ...]
     sentences: dict[str, str]
     summary: str
-
-
-def _amount(x: float) -> str:
-    if x >= 10:
-        return f"{x:,.0f}"
-    if 0 < x < 0.05:
-        return "fewer than 0.1"
-    return f"{x:.1f}"
 
 
 def _goal_value(s: ScenarioResult, kind: str, name: str) -> float:
@@ -103,17 +96,17 @@ def _sentence(s: ScenarioResult, base: ScenarioResult, kind: str, name: str) -> 
     animals = f"the {c.animals} released animal" + ("" if c.animals == 1 else "s")
     groups = [g for g in c.kills_by_group if g.strip().lower() not in WILD] or list(
         c.kills_by_group)
-    kills = ", ".join(f"{_amount(c.kills_by_group[g])} {g}" for g in groups)
+    kills = ", ".join(f"{amount(c.kills_by_group[g])} {g}" for g in groups)
     if s is base:
         lead = f"{s.name}: {animals} are expected to kill {kills} prey {_when(s)}"
     else:
-        changes = [f"{_amount(base.cohort.kills_by_group.get(g, 0.0))} → "
-                   f"{_amount(c.kills_by_group[g])} {g}" for g in groups]
+        changes = [f"{amount(base.cohort.kills_by_group.get(g, 0.0))} → "
+                   f"{amount(c.kills_by_group[g])} {g}" for g in groups]
         lead = f"{s.name}: expected kills by {animals} {_when(s)} change " + ", ".join(changes)
     alive = f"{100 * c.alive_at_horizon:.0f} %" if c.alive_at_horizon >= 0.005 else "almost none"
     tail = f"; {alive} of them alive at the end"
     if c.breeding_events is not None:
-        tail += f", {_amount(c.breeding_events)} breeding events"
+        tail += f", {amount(c.breeding_events)} breeding events"
     if s.viability:
         tail += " (a failing release: see below)"
     return lead + tail + "."

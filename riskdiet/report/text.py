@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult
+from riskdiet.analysis.wording import amount
 
 
 def percent(fraction: float) -> str:
@@ -50,17 +51,6 @@ def scenario_summary(result: ScenarioResult) -> str:
     return "\n".join(lines)
 
 
-def count(x: float | None) -> str:
-    """An expected count for people: whole numbers from 10 up, one decimal below."""
-    if x is None:
-        return "—"
-    if x >= 10:
-        return f"{x:,.0f}"
-    if x > 0 and x < 0.05:
-        return "< 0.1"
-    return f"{x:.1f}"
-
-
 def cohort_lines(result: ScenarioResult) -> list[str]:
     """The released cohort's numbers: what the animals released will do."""
     c = result.cohort
@@ -70,17 +60,17 @@ def cohort_lines(result: ScenarioResult) -> list[str]:
                else f"the first {c.horizon_days} days")
     lines = [f"  Released animals ({c.animals}, no replacement), within {horizon}:"]
     width = max(len(n) for n in c.kills)
-    kills = [f"    {name:<{width}}  {count(v)}" for name, v in c.kills.items()]
-    groups = ", ".join(f"{g} {count(v)}" for g, v in c.kills_by_group.items())
+    kills = [f"    {name:<{width}}  {amount(v)}" for name, v in c.kills.items()]
+    groups = ", ".join(f"{g} {amount(v)}" for g, v in c.kills_by_group.items())
     median = ("over the horizon" if c.median_survival_days is None
               else f"{c.median_survival_days} days")
     lines.append("    expected kills by prey:")
     lines += ["  " + k for k in kills]
     lines.append(f"    by group: {groups}")
     lines.append(f"    alive at the end: {100 * c.alive_at_horizon:.0f} % of animals "
-                 f"({count(c.survivors)} expected survivors); median survival {median}")
+                 f"({amount(c.survivors)} expected survivors); median survival {median}")
     if c.breeding_events is not None:
-        lines.append(f"    expected breeding events: {count(c.breeding_events)}")
+        lines.append(f"    expected breeding events: {amount(c.breeding_events)}")
     return lines
 
 
@@ -89,7 +79,7 @@ def long_run_lines(result: ScenarioResult) -> list[str]:
     k = result.kills
     if k is None:
         return []
-    groups = ", ".join(f"{g} {count(v)}" for g, v in k.kills_per_year_population_by_group.items())
+    groups = ", ".join(f"{g} {amount(v)}" for g, v in k.kills_per_year_population_by_group.items())
     line = [f"  Long-run kills a year by {result.predator.population} places kept filled "
             f"(every death replaced): {groups}"]
     if k.lifetime_note:
