@@ -245,6 +245,17 @@ def _classic(result: StudyResult) -> Table:
                  "Gilliam's risk-adjusted diet", header, rows, {3: "0.00", 6: "0.000"}, notes)
 
 
+def _glossary() -> Table:
+    from riskdiet.analysis.glossary import TERMS, field_glossary
+
+    rows = [[term, meaning, ""] for term, meaning in TERMS]
+    rows += [[words, meaning, key] for words, key, meaning in field_glossary()]
+    return Table("Glossary", "Terms used in these results, and the inputs by name", ["term",
+                 "meaning", "key in study files and JSON"], rows,
+                 notes=["Study workbooks and JSON files name inputs by their keys; the "
+                        "results name them in words."])
+
+
 def _provenance(result: StudyResult, date: str) -> Table:
     rows: list[list] = [["riskdiet_version", "", "", result.riskdiet_version],
                         ["input_file", "", "", result.study.source],
@@ -273,7 +284,7 @@ def _provenance(result: StudyResult, date: str) -> Table:
 def scenario_sheet_names(scenario_names: list[str]) -> list[str]:
     """Sheet names of the per-scenario tables, unique and valid."""
     taken = {"summary", "comparison", "cohort", "kills", "predators", "classic", "map",
-             "grid check", "provenance"}
+             "grid check", "glossary", "provenance"}
     return [sheet_name(name, taken) for name in scenario_names]
 
 
@@ -284,7 +295,7 @@ def table_names(study: Study) -> list[str]:
     names.append("Classic")
     if study.settings.map_x and study.settings.map_y:
         names.append("Map")
-    return [*names, "Grid check", "Provenance"]
+    return [*names, "Grid check", "Glossary", "Provenance"]
 
 
 def results_tables(result: StudyResult, date: str | None = None) -> list[Table]:
@@ -297,7 +308,7 @@ def results_tables(result: StudyResult, date: str | None = None) -> list[Table]:
     tables += [_classic(result)]
     if result.map is not None:
         tables.append(_map(result))
-    tables += [_grid_check(result), _provenance(result, date)]
+    tables += [_grid_check(result), _glossary(), _provenance(result, date)]
     return tables
 
 

@@ -285,6 +285,11 @@ def _appendix(b: Builder, plan: BriefPlan) -> None:
         "document byte for byte: "
         f"<font name=\"{plan.fonts.mono}\" size=\"8\">riskdiet brief "
         f"{esc(_input_name(study))} --date {esc(plan.date)} --paper {plan.paper}</font>.")
+    b.sub("Glossary")
+    from riskdiet.analysis.glossary import TERMS
+
+    b.tables([["term", "meaning"]] + [[esc(t), esc(m)] for t, m in TERMS],
+             [Column(max_share=0.25), Column(max_share=0.75)])
     b.sub("References")
     for ref in REFERENCES:
         b.para(esc(ref), b.s.small)

@@ -111,7 +111,10 @@ def section(b: Builder, u: UncertaintyResult) -> None:
         "draw. Ranges: " + esc("; ".join(_range_text(x) for x in u.study.uncertainty)) + ". "
         "Probabilities are given in the words of the IPCC's uncertainty guidance (Mastrandrea "
         "et al. 2010) with their number. The intervals say what the ranges entered imply; they "
-        "are not forecasts.")
+        "are not forecasts."
+        + (" The draws use the study's own ranges, not the intervals fitted to the field "
+           "records (section on the fit); to propagate those, enter them as ranges."
+           if u.study.observations and u.study.settings.fit else ""))
     b.sub("Intervals")
     groups = [i.name for i in u.scenarios[0].intervals if i.outcome == COHORT_GROUP]
     rows = [["median (5–95 %)", *(esc(s.name) for s in u.scenarios)]]

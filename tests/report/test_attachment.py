@@ -97,3 +97,23 @@ def test_results_workbook_prints_and_is_byte_reproducible(solved, tmp_path):
         assert ws.page_setup.fitToWidth == 1
         assert ws.print_title_rows
     json.dumps(wb.sheetnames)
+
+
+def test_workbook_and_brief_carry_a_glossary(solved, brief_pdf, tmp_path):
+    """The workbook's Glossary sheet maps every input's words to its key in study
+    files and JSON (MODEL.md section 1 names the keys), and explains the trade
+    terms used in the outputs; the brief's appendix has the same terms."""
+    import pypdf
+    from openpyxl import load_workbook
+
+    from riskdiet.analysis.glossary import TERMS
+    from riskdiet.fields import WORDS
+
+    wb = load_workbook(write_results_workbook(solved, tmp_path / "g.xlsx"))
+    rows = [r for r in wb["Glossary"].iter_rows(values_only=True)]
+    keys = {r[2] for r in rows if r and r[2]}
+    assert {"energy_mj", "capture_success", "released_animals"} <= keys
+    assert all(WORDS[k] in {r[0] for r in rows} for k in ("energy_mj", "handling_days"))
+    text = " ".join(p.extract_text() for p in pypdf.PdfReader(brief_pdf).pages[-3:])
+    assert "Glossary" in text
+    assert all(term.split()[0] in text for term, _ in TERMS[:4])
