@@ -45,16 +45,18 @@ def attack_pattern(result: ScenarioResult, prey: str, condition: str) -> AttackP
             if r.prey == prey and r.condition == condition]
     if not runs:
         return AttackPattern("never", float("nan"), float("nan"), [])
+    # "at all reserves" only when it is so: from the lowest level at which anything is
+    # attacked to the top, the same ranges the decisions table (section 4) shows
     lowest_any = min(r.low_fraction for r in ranges if r.condition == condition)
     top = float(result.grid.living[-1] / result.grid.n)
     lo, hi = runs[0][0], runs[-1][1]
     if len(runs) > 1:
         kind = "mixed"
-    elif lo <= lowest_any + 0.05 + 1e-9 and hi >= top - 1e-9:
+    elif lo <= lowest_any + 1e-9 and hi >= top - 1e-9:
         kind = "all"
     elif hi >= top - 1e-9:
         kind = "above"
-    elif lo <= lowest_any + 0.05 + 1e-9:
+    elif lo <= lowest_any + 1e-9:
         kind = "below"
     else:
         kind = "mixed"
