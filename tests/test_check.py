@@ -111,3 +111,19 @@ def test_check_exits_2_with_problems_on_stderr(tmp_path):
     assert result.exit_code == 2
     assert result.stdout == ""
     assert "prey[2].capture_success: expected a number from 0 to 1, found 1.4" in result.stderr
+
+
+def test_check_lists_the_field_diet_records():
+    """`check` shows every Observations row as read (count, kind, detection, source,
+    predator-days) and how many compositions they form (MODEL.md section 10:
+    rows sharing scenario, kind and source form one composition; a rate row is
+    none). Expected values are those typed into the illustrative records study."""
+    path = DEMO_JSON.parent / "harrow-vale-records.json"
+    raw = json.loads(path.read_text(encoding="utf-8"))
+    result = run_check(path)
+    assert result.exit_code == 0, result.output
+    rows = raw["observations"]
+    sources = {(r.get("scenario"), r.get("kind", "kills"), r.get("source")) for r in rows
+               if r.get("prey")}
+    assert f"Observations ({len(rows)} rows, {len(sources)} composition(s))" in result.stdout
+    assert "(rate row)" in result.stdout

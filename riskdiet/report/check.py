@@ -136,6 +136,21 @@ def uncertainty_section(study: Study) -> str:
                             right=[False, False, True, True, False, True, False, False])])
 
 
+def observations_section(study: Study) -> str:
+    """The field diet records as read, one row each (MODEL.md section 10)."""
+    if not study.observations:
+        return "Observations (field diet records): none"
+    rows = [[o.prey or "(rate row)", str(o.count), o.kind, f"{o.detection:g}",
+             o.scenario or "(baseline)", o.source or "",
+             "" if o.predator_days is None else f"{o.predator_days:g}", o.note]
+            for o in study.observations]
+    compositions = len({o.composition_key for o in study.observations if not o.is_rate})
+    return "\n".join([f"Observations ({len(rows)} rows, {compositions} composition(s))",
+                      table(["prey", "count", "kind", "detection", "scenario", "source",
+                             "predator-days", "note"], rows,
+                            right=[False, True, False, True, False, False, True, False])])
+
+
 def settings_section(study: Study) -> str:
     rows = [[name, _value(getattr(study.settings, name))] for name in field_specs(Settings)]
     return "\n".join(["Settings", table(["field", "value"], rows)])
@@ -180,7 +195,8 @@ def check_text(study: Study) -> str:
     Returns
     -------
     str
-        Heading, predator, prey, scenarios, uncertainty, settings and warnings.
+        Heading, predator, prey, scenarios, uncertainty, observations, settings and
+        warnings.
     """
     head = [f"{study.name}: valid",
             f"Read from {study.source or '(no file)'}"
@@ -190,7 +206,8 @@ def check_text(study: Study) -> str:
             f"{len(study.notices) + len(font_warnings(study))} warning(s)."]
     sections = [
         "\n".join(head), predator_section(study), prey_section(study), scenario_section(study),
-        uncertainty_section(study), settings_section(study), notices_section(study),
+        uncertainty_section(study), observations_section(study), settings_section(study),
+        notices_section(study),
         "Values must come from local data; decisions follow wildlife law and the wildlife "
         "authority.",
     ]
