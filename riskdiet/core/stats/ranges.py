@@ -188,7 +188,9 @@ def inverse_cdf(
             c = (mode - low) / width
             left = low + np.sqrt(u * width * (mode - low))
             right = high - np.sqrt((1 - u) * width * (high - mode))
-            x = np.where(u < c, left, right)
+            # each branch stays on its side of the mode: rounding (1 - u close to 1)
+            # must not put a right-branch value below a left-branch one
+            x = np.where(u < c, np.minimum(left, mode), np.maximum(right, mode))
     elif shape == "loguniform":
         x = low * np.exp(u * math.log(high / low))
     else:
