@@ -461,7 +461,9 @@ def _run_map(study, request, workers: int, scheduler: str | None, quiet: bool):
                 return make_map(study, request, client.get_executor(),
                                 bands=max(8, 4 * len(client.nthreads())), progress=progress)
         if workers > 1:
-            return _map_in_pool(study, request, workers, progress)
+            return _in_pool(lambda pool: make_map(study, request, pool, bands=2 * workers,
+                                                  progress=progress), workers,
+                            "a map worker process", " or a smaller map")
         return make_map(study, request, progress=progress)
 
 
@@ -470,28 +472,6 @@ def _ignore_interrupt() -> None:
     import signal
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)
-
-
-def _map_in_pool(study, request, workers: int, progress):
-    """Solve a map in a local process pool; Ctrl-C or a dead worker stops every worker."""
-    from concurrent.futures import ProcessPoolExecutor
-    from concurrent.futures.process import BrokenProcessPool
-
-    from riskdiet.analysis.maps import make_map
-
-    pool = ProcessPoolExecutor(max_workers=workers, initializer=_ignore_interrupt)
-    try:
-        return make_map(study, request, pool, bands=2 * workers, progress=progress)
-    except BrokenProcessPool:
-        raise RiskdietError("a map worker process died (out of memory, or killed); nothing "
-                            "was written. Try fewer --workers or a smaller map.") from None
-    except BaseException:
-        # stop promptly: do not wait for the bands still being solved
-        for process in list((getattr(pool, "_processes", None) or {}).values()):
-            process.terminate()
-        raise
-    finally:
-        pool.shutdown(wait=True, cancel_futures=True)
 
 
 SCHEDULER_EXPECTED = "the address of a running Dask scheduler, e.g. tcp://10.0.0.5:8786"
@@ -631,7 +611,7 @@ def _run_uncertainty(study, draws, seed, workers: int, scheduler: str | None, qu
         return run(None)
 
 
-def _in_pool(run, workers: int):
+def _in_pool(run, workers: int, who: str = "a worker process", smaller: str = ""):
     """Run with a local process pool; Ctrl-C or a dead worker stops every worker."""
     from concurrent.futures import ProcessPoolExecutor
     from concurrent.futures.process import BrokenProcessPool
@@ -640,9 +620,10 @@ def _in_pool(run, workers: int):
     try:
         return run(pool)
     except BrokenProcessPool:
-        raise RiskdietError("a worker process died (out of memory, or killed); nothing was "
-                            "written. Try fewer --workers.") from None
+        raise RiskdietError(f"{who} died (out of memory, or killed); nothing was written. "
+                            f"Try fewer --workers{smaller}.") from None
     except BaseException:
+        # stop promptly: do not wait for the work still being done
         for process in list((getattr(pool, "_processes", None) or {}).values()):
             process.terminate()
         raise

@@ -44,6 +44,7 @@ from riskdiet.core.grid import (
     Outcome,
     attack_probabilities,
     death_chances,
+    kill_probabilities,
     outcomes,
     take_cells,
     targets,
@@ -206,13 +207,6 @@ def _lu_factor(system: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             system[i] = lu
         pivots[i] = piv
     return system, pivots
-
-
-def kill_probabilities(grid: Grid, attack_prob: np.ndarray) -> np.ndarray:
-    """P(kill i | s) = (1 - mu_k) P_i (1 - f_i) s_i^k, batched (MODEL.md section 5)."""
-    alive = (1.0 - grid.mortality)[..., :, None, None]
-    return (alive * attack_prob * (1.0 - grid.fatality)[..., None, None, :]
-            * grid.capture[..., :, None, :])
 
 
 def solve_breeding_batch(grid: Grid, extra_direct=None,

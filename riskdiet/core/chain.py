@@ -49,6 +49,7 @@ from riskdiet.core.grid import (
     Targets,
     attack_probabilities,
     death_chances,
+    kill_probabilities,
     outcomes,
     targets,
 )
@@ -107,24 +108,6 @@ class ChainStep:
     deaths: np.ndarray
     kill_prob: np.ndarray
     days: np.ndarray
-
-
-def kill_probabilities(grid: Grid, attack_prob: np.ndarray) -> np.ndarray:
-    """Chance that a step from each state starts with a kill of each prey.
-
-    Parameters
-    ----------
-    grid : Grid
-    attack_prob : ndarray, shape (2, m, P)
-        P_i, the chance that prey i is the one attacked (zero if ignored).
-
-    Returns
-    -------
-    ndarray, shape (2, m, P)
-        (1 - mu_k) P_i (1 - f_i) s_i^k (MODEL.md section 5).
-    """
-    alive = (1.0 - grid.mortality)[:, None, None]
-    return alive * attack_prob * (1.0 - grid.fatality) * grid.capture[:, None, :]
 
 
 def death_probabilities(grid: Grid, tg: Targets, attack_prob: np.ndarray,

@@ -203,7 +203,7 @@ def set_values(grid: Grid, cv: ChoiceValues, priority: np.ndarray
     """
     attack_prob = attack_probabilities(grid.encounter_prob, priority)
     mu = grid.mortality[..., :, None]
-    v = (1.0 - mu) * (cv.ignore_v + (attack_prob * (cv.attack_v - cv.ignore_v[..., None])).sum(-1))
+    v = one_step_value(grid, cv.ignore_v, cv.attack_v, attack_prob)
     u = mu + (1.0 - mu) * (cv.ignore_u
                            + (attack_prob * (cv.attack_u - cv.ignore_u[..., None])).sum(-1))
     return v, u, attack_prob

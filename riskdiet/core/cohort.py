@@ -41,7 +41,15 @@ import numpy as np
 import scipy.sparse as sp
 
 from riskdiet.core.chain import season_outlook
-from riskdiet.core.grid import Grid, Outcome, attack_probabilities, outcomes, stack_grids, targets
+from riskdiet.core.grid import (
+    Grid,
+    Outcome,
+    attack_probabilities,
+    kill_probabilities,
+    outcomes,
+    stack_grids,
+    targets,
+)
 from riskdiet.core.solver import Solution
 from riskdiet.errors import RiskdietError
 
@@ -200,9 +208,7 @@ def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortB
     tg = targets(grid)
     attack_prob = attack_probabilities(grid.encounter_prob, np.asarray(priority, dtype=np.intp))
     parts = outcomes(grid, tg, attack_prob)
-    alive_step = (1.0 - grid.mortality)[..., :, None, None]
-    kill = (alive_step * attack_prob * (1.0 - grid.fatality)[..., None, None, :]
-            * grid.capture[..., :, None, :]).reshape(batch, size, n_prey)
+    kill = kill_probabilities(grid, attack_prob).reshape(batch, size, n_prey)
     moves = [(length, *_block_moves(grid, group))
              for length, group in sorted(_split_by_length(parts, grid.handling).items())]
     longest = max(length for length, _, _ in moves)

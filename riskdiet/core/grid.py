@@ -422,6 +422,25 @@ def outcomes(grid: Grid, tg: Targets, attack_prob: np.ndarray) -> list[Outcome]:
     ]
 
 
+def kill_probabilities(grid: Grid, attack_prob: np.ndarray) -> np.ndarray:
+    """Chance that a step from each state starts with a kill of each prey.
+
+    Parameters
+    ----------
+    attack_prob : ndarray, shape (*B, 2, m, P)
+        P_i, the chance that prey i is the one attacked (zero if ignored).
+
+    Returns
+    -------
+    ndarray, shape (*B, 2, m, P)
+        (1 - mu_k) P_i (1 - f_i) s_i^k (MODEL.md section 5; a kill counts at
+        capture, before the handling days are survived).
+    """
+    alive = (1.0 - grid.mortality)[..., :, None, None]
+    return (alive * attack_prob * (1.0 - grid.fatality)[..., None, None, :]
+            * grid.capture[..., :, None, :])
+
+
 def death_chances(grid: Grid, tg: Targets, attack_prob: np.ndarray,
                   parts: list[Outcome]) -> np.ndarray:
     """Chance of dying in one step, by cause, from every living state.
@@ -450,7 +469,6 @@ def death_chances(grid: Grid, tg: Targets, attack_prob: np.ndarray,
         starvation = starvation + (o.prob * on_zero).sum(-1)
     alive = (1.0 - grid.mortality)[..., :, None]
     attack = alive * (attack_prob * grid.fatality[..., None, None, :]).sum(-1)
-    kill = (alive[..., None] * attack_prob * (1.0 - grid.fatality)[..., None, None, :]
-            * grid.capture[..., :, None, :])
+    kill = kill_probabilities(grid, attack_prob)
     other = grid.mortality[..., :, None] + (kill * tg.die_handling[..., :, None, :]).sum(-1)
     return np.stack([starvation, attack, np.broadcast_to(other, attack.shape)], axis=-3)

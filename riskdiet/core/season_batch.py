@@ -29,7 +29,7 @@ from riskdiet.core.choice import (
     set_values,
     step_values,
 )
-from riskdiet.core.grid import Grid, attack_probabilities, outcomes, targets
+from riskdiet.core.grid import Grid, attack_probabilities, kill_probabilities, outcomes, targets
 from riskdiet.core.solver import SUM_LIMIT
 from riskdiet.errors import RiskdietError
 
@@ -144,15 +144,13 @@ def _forward(grid: Grid, tg, priority: np.ndarray
     transit = np.zeros((days + 2, batch))
     kills = np.zeros((batch, n_prey))
     cell_of = np.repeat(np.arange(batch), size)
-    alive_step = (1.0 - grid.mortality)[..., :, None, None]
     width = int(handling.max(initial=0)) + 1  # days ahead a step can end
     for t in range(days):
         mass = arrivals[t]
         if not mass.any():
             continue
         attack_prob = attack_probabilities(grid.encounter_prob, priority[t].astype(np.intp))
-        kill = (alive_step * attack_prob * (1.0 - grid.fatality)[..., None, None, :]
-                * grid.capture[..., :, None, :])
+        kill = kill_probabilities(grid, attack_prob)
         source = mass.reshape(batch, 2, m)[..., None]
         kills += (source * kill).sum((1, 2))
         where, weight = [], []
