@@ -10,10 +10,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from riskdiet.analysis.regimes import when_attacked
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult
 from riskdiet.analysis.wording import amount
 
 WILD_GROUPS = {"wild", ""}
+_KINDS = ("never", "all", "below", "above", "mixed")
+"""Kinds of :class:`AttackPattern` by category code of :data:`regimes.WHEN_KEYS`."""
 
 
 @dataclass(frozen=True)
@@ -45,21 +48,15 @@ def attack_pattern(result: ScenarioResult, prey: str, condition: str) -> AttackP
             if r.prey == prey and r.condition == condition]
     if not runs:
         return AttackPattern("never", float("nan"), float("nan"), [])
-    # "at all reserves" only when it is so: from the lowest level at which anything is
-    # attacked to the top, the same ranges the decisions table (section 4) shows
-    lowest_any = min(r.low_fraction for r in ranges if r.condition == condition)
-    top = float(result.grid.living[-1] / result.grid.n)
-    lo, hi = runs[0][0], runs[-1][1]
-    if len(runs) > 1:
-        kind = "mixed"
-    elif lo <= lowest_any + 1e-9 and hi >= top - 1e-9:
-        kind = "all"
-    elif hi >= top - 1e-9:
-        kind = "above"
-    elif lo <= lowest_any + 1e-9:
-        kind = "below"
-    else:
-        kind = "mixed"
+    # one reading shared with the maps (regimes.when_attacked): "at all reserves" only from
+    # the lowest level at which anything is attacked to the top
+    living = result.grid.living
+    k = CONDITIONS.index(condition)
+    codes, lower, upper = when_attacked(result.solution.priority[k][living] >= 0,
+                                        living / result.grid.n)
+    i = list(result.prey_names).index(prey)
+    kind = _KINDS[int(codes[i])]
+    lo, hi = float(lower[i]), float(upper[i])
     return AttackPattern(kind, lo, hi, runs)
 
 

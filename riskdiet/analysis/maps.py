@@ -32,9 +32,9 @@ from riskdiet.analysis.cells import (
     set_input,
     solve_cells,
 )
-from riskdiet.analysis.regimes import classify
+from riskdiet.analysis.regimes import WHEN_KEYS, classify, when_attacked, when_threshold
 from riskdiet.errors import Problem, SolveError, StudyError, describe
-from riskdiet.fields import INTEGER, did_you_mean, field_specs
+from riskdiet.fields import INTEGER, did_you_mean, field_specs, words
 from riskdiet.model import BASELINE, Predator, Prey, Study
 from riskdiet.validation import check_values, size_problem
 
@@ -73,11 +73,38 @@ class Axis:
 
     @property
     def label(self) -> str:
+        """The axis in words with its unit, e.g. ``Wild boar: share of all encounters``."""
+        text = f"{self.prey}: {self._field_words}" if self.prey else self._field_words
+        return text[:1].upper() + text[1:]
+
+    @property
+    def words(self) -> str:
+        """The axis in words inside a sentence, e.g. ``share of all encounters of wild boar``."""
+        if not self.prey:
+            return self._field_words
+        unit = UNIT_PHRASES.get(self.unit, "")
+        return f"{words(self.field)} of {self.prey}" + (f" ({unit})" if unit else "")
+
+    @property
+    def unit(self) -> str:
+        """Unit of the axis values as written in study files (``1`` for none)."""
         if self.field == SHARE:
-            return f"{self.prey}: share of all encounters"
+            return "1"
         spec = field_specs(Prey if self.prey else Predator)[self.field]
-        unit = f" [{spec.unit}]" if spec.unit not in ("text", "ratio", "count") else ""
-        return f"{self.prey + ': ' if self.prey else ''}{self.field}{unit}"
+        return "1" if spec.unit in NO_UNIT else spec.unit
+
+    @property
+    def _field_words(self) -> str:
+        unit = UNIT_PHRASES.get(self.unit, "")
+        return words(self.field) + (f" ({unit})" if unit else "")
+
+
+NO_UNIT = ("text", "ratio", "count", "probability", "yes/no", "word")
+"""Units that an axis label leaves out (the words already say what the number is)."""
+UNIT_PHRASES = {"MJ": "MJ", "MJ/day": "MJ per day", "1/day": "per day", "day": "days",
+                "km²/day": "km² per day", "1/km²": "per km²", "kg": "kg",
+                "fraction of R": "fraction of capacity"}
+"""Units in words for axis labels and sentences."""
 
 
 def parse_target(target: str, study: Study, where: str, numeric_only: bool = True
@@ -245,6 +272,22 @@ class MapResult:
     groups : tuple of str
     max_residual : float
         Largest Bellman residual over all cells.
+    currency : str
+    prey : tuple of str
+        Prey names, in the study's order.
+    prey_groups : tuple of str
+        Each prey's group.
+    prey_risky : tuple of bool
+        Whether each prey is risky in the mapped scenario's own inputs.
+    when_codes : ndarray of int8, shape (2, P, len(y), len(x))
+        When each prey is attacked, by condition (healthy, injured): codes of
+        :data:`riskdiet.analysis.regimes.WHEN_KEYS`.
+    when_threshold : ndarray, shape (2, P, len(y), len(x))
+        For ``only when reserves are low`` the highest, for ``only when
+        reserves are high`` the lowest reserves at which the prey is attacked
+        [fraction of capacity]; NaN for the other categories.
+    study_x, study_y : float
+        The mapped scenario's own values of the two axis inputs.
     """
 
     request: MapRequest
@@ -261,6 +304,13 @@ class MapResult:
     groups: tuple[str, ...]
     max_residual: float
     currency: str
+    prey: tuple[str, ...] = ()
+    prey_groups: tuple[str, ...] = ()
+    prey_risky: tuple[bool, ...] = ()
+    when_codes: np.ndarray | None = None
+    when_threshold: np.ndarray | None = None
+    study_x: float = float("nan")
+    study_y: float = float("nan")
 
     @property
     def gradient_column(self) -> str | None:
@@ -269,9 +319,23 @@ class MapResult:
         prey, field = self.request.gradient
         return f"marginal_{(prey + ':') if prey else ''}{field}"
 
+    @property
+    def focus(self) -> tuple[int, ...]:
+        """Prey that matter to a plan: risky prey and prey of groups that are not wild
+        (livestock, protected...); every prey when none is either."""
+        chosen = tuple(i for i, (g, r) in enumerate(zip(self.prey_groups, self.prey_risky,
+                                                        strict=True))
+                       if r or g.strip().lower() not in WILD)
+        return chosen or tuple(range(len(self.prey)))
+
     def columns(self) -> list[str]:
-        cols = ["x", "y", "regime_healthy", "regime_injured", "regime_healthy_detail",
-                "regime_injured_detail", "fitness_at_start", "marginal_hunting_ability"]
+        """Column names of map.csv: the two axes by their input, then each cell's numbers."""
+        cols = [self.request.x.target, self.request.y.target, "regime_healthy",
+                "regime_injured", "regime_healthy_detail", "regime_injured_detail"]
+        for cond in CONDITION_NAMES:
+            cols += [f"when_attacked_{cond}:{p}" for p in self.prey]
+            cols += [f"reserve_threshold_{cond}:{p}" for p in self.prey]
+        cols += ["fitness_at_start", "marginal_hunting_ability"]
         if self.marginal_extra is not None:
             cols.append(self.gradient_column)
         per = "year" if self.currency == "breeding" else "season"
@@ -279,21 +343,50 @@ class MapResult:
         return cols
 
     def rows(self) -> list[list]:
-        """One row per cell (x varies fastest), in the order of :meth:`columns`."""
+        """One row per cell (x varies fastest), in the order of :meth:`columns`; a
+        threshold that does not apply is None (an empty CSV field)."""
         out = []
         for iy, yv in enumerate(self.y):
             for ix, xv in enumerate(self.x):
                 row = [float(xv), float(yv), str(self.regime_healthy[iy, ix]),
                        str(self.regime_injured[iy, ix]),
                        str(self.regime_healthy_detail[iy, ix]),
-                       str(self.regime_injured_detail[iy, ix]),
-                       float(self.fitness_at_start[iy, ix]),
-                       float(self.marginal_hunting_ability[iy, ix])]
+                       str(self.regime_injured_detail[iy, ix])]
+                for k in range(len(CONDITION_NAMES)):
+                    row += [WHEN_KEYS[c] for c in self.when_codes[k, :, iy, ix]]
+                    row += [None if np.isnan(t) else float(t)
+                            for t in self.when_threshold[k, :, iy, ix]]
+                row += [float(self.fitness_at_start[iy, ix]),
+                        float(self.marginal_hunting_ability[iy, ix])]
                 if self.marginal_extra is not None:
                     row.append(float(self.marginal_extra[iy, ix]))
                 row += [float(self.kills_per_year[g][iy, ix]) for g in self.groups]
                 out.append(row)
         return out
+
+
+CONDITION_NAMES = ("healthy", "injured")
+WILD = {"wild", ""}
+"""Group names that count as wild prey (as in :mod:`riskdiet.analysis.findings`)."""
+
+
+def study_values(study: Study, request: MapRequest) -> tuple[float, float]:
+    """The mapped scenario's own values of the two axis inputs (where the study sits)."""
+    pred, prey = study.inputs_for(study.scenario(request.scenario))
+    out = []
+    for axis in (request.x, request.y):
+        if axis.prey is None:
+            out.append(float(getattr(pred, axis.field)))
+            continue
+        if axis.field == SHARE:
+            rates = [p.encounters(pred) for p in prey]
+            total = sum(rates)
+            mine = sum(r for p, r in zip(prey, rates, strict=True) if p.name == axis.prey)
+            out.append(mine / total if total > 0 else float("nan"))
+            continue
+        value = next(getattr(p, axis.field) for p in prey if p.name == axis.prey)
+        out.append(float("nan") if value is None else float(value))
+    return out[0], out[1]
 
 
 def cell_inputs(study: Study, request: MapRequest, x: float, y: float,
@@ -342,10 +435,63 @@ def _classify(mask: bytes, shape: tuple[int, int], risky: tuple[bool, ...],
     return r.category, r.detail
 
 
+BLOCK_CELLS = 2048
+"""Cells solved before their attack tables are reduced to regimes and per-prey
+categories: a 200 x 200 map never holds more than this many policies at once."""
+
+
+@dataclass
+class _Reduced:
+    """What a map keeps of each cell once its policy is read (no policy)."""
+
+    regimes: list[tuple[str, str, str, str]]
+    codes: list[np.ndarray]
+    thresholds: list[np.ndarray]
+    fitness: list[float]
+    marginal: list[float]
+    extra: list[float]
+    kills: list[np.ndarray]
+    residual: float = 0.0
+
+
+def _reduce(results: list[CellResult], prey: tuple[Prey, ...], levels: list[int],
+            into: _Reduced) -> None:
+    """Read a block of cells: regimes, when each prey is attacked, the numbers; drop policies.
+
+    ``levels`` gives each cell's number of energy levels n (an axis may change
+    it, or the breeding threshold, and so the shape of the policy): cells of one
+    shape are read together.
+    """
+    codes = np.empty((len(results), 2, len(prey)), dtype=np.int8)
+    thresholds = np.empty((len(results), 2, len(prey)))
+    shapes: dict[tuple, list[int]] = {}
+    for b, r in enumerate(results):
+        shapes.setdefault((r.policy.shape, levels[b]), []).append(b)
+    for (shape, n), index in shapes.items():
+        attacked = np.stack([results[b].policy >= 0 for b in index])   # (B, 2, m, P)
+        c, lower, upper = when_attacked(attacked, (1 + np.arange(shape[1])) / n)
+        codes[index] = c
+        thresholds[index] = when_threshold(c, lower, upper)
+    into.codes.append(codes)
+    into.thresholds.append(thresholds)
+    for r, n in zip(results, levels, strict=True):
+        into.regimes.append(_regimes(r.policy, prey, n))
+        into.fitness.append(r.fitness_at_start)
+        into.marginal.append(r.marginal_hunting_ability)
+        into.extra.append(r.marginal_extra if r.marginal_extra is not None else np.nan)
+        into.kills.append(np.asarray(r.kills_per_predator_per_year, dtype=float))
+        into.residual = max(into.residual, float(r.residual))
+
+
 def make_map(study: Study, request: MapRequest, executor: Executor | None = None,
              bands: int | None = None, progress: Callable[[int, int], None] | None = None
              ) -> MapResult:
     """Solve every cell of a map with the batched entry point.
+
+    Cells are solved in blocks of at most about :data:`BLOCK_CELLS` (each block
+    split into ``bands`` chunks for the executor); each block's policies are
+    read into regimes and per-prey categories and then dropped, so memory does
+    not grow with the policies of the whole map.
 
     Parameters
     ----------
@@ -354,7 +500,8 @@ def make_map(study: Study, request: MapRequest, executor: Executor | None = None
     executor : concurrent.futures.Executor, optional
         Runs chunks of cells in parallel; inline when None.
     bands : int, optional
-        Number of chunks of cells (default: 1 inline, else 8 or one per row).
+        Number of chunks of cells per block (default: 1 inline, else 8 or one
+        per row).
     progress : callable, optional
         ``progress(done_rows, total_rows)`` as chunks finish.
 
@@ -369,36 +516,58 @@ def make_map(study: Study, request: MapRequest, executor: Executor | None = None
     cells = map_cells(request)
     if bands is None:
         bands = 1 if executor is None else min(ny, 8)
-    chunk = max(1, -(-len(cells) // max(1, min(bands, ny))))
-    report = None if progress is None else (lambda done, total: progress(done // nx, ny))
-    results = solve_cells(study, cells, executor, chunk=chunk, keep_policy=True,
-                          progress=report, cohort=False)
-    failed = [r for r in results if not r.ok]
+    bands = max(1, bands)
+    block = max(bands, min(len(cells), BLOCK_CELLS))
+    chunk = max(1, -(-block // bands))
+    block = chunk * bands
+    base = study.inputs_for(study.scenario(request.scenario))
+    prey = base[1]
+    if "energy_levels" in (request.x.field, request.y.field):
+        levels = [cell_inputs(study, request, x, y, base)[0].energy_levels
+                  for y in request.y.values for x in request.x.values]
+    else:
+        levels = [base[0].energy_levels] * len(cells)
+    reduced = _Reduced([], [], [], [], [], [], [])
+    failed: list[CellResult] = []
+    for start in range(0, len(cells), block):
+        part = cells[start:start + block]
+        report = None if progress is None else (
+            lambda done, total, start=start: progress((start + done) // nx, ny))
+        results = solve_cells(study, part, executor, chunk=chunk, keep_policy=True,
+                              progress=report, cohort=False)
+        bad = [r for r in results if not r.ok]
+        failed += bad
+        if not failed:
+            _reduce(results, prey, levels[start:start + block], reduced)
+        del results
     if failed:
         more = f" (and {len(failed) - 1} more cells)" if len(failed) > 1 else ""
         raise SolveError(failed[0].failure, failed[0].label + more)
-    return _assemble(study, request, results)
+    return _assemble(study, request, reduced)
 
 
-def _assemble(study: Study, request: MapRequest, results: list[CellResult]) -> MapResult:
+def _assemble(study: Study, request: MapRequest, reduced: _Reduced) -> MapResult:
     ny, nx = request.y.steps, request.x.steps
     pred, prey = study.inputs_for(study.scenario(request.scenario))
     groups: list[str] = []
     for p in prey:
         if p.group not in groups:
             groups.append(p.group)
-    n = pred.energy_levels
-    regimes = np.array([_regimes(r.policy, prey, n) for r in results], dtype=object)
+    regimes = np.array(reduced.regimes, dtype=object)
 
     def grid_of(values, dtype=float):
         return np.asarray(values, dtype=dtype).reshape(ny, nx)
 
+    kills_by_prey = np.stack(reduced.kills)                         # (cells, P)
     kills = {g: np.zeros((ny, nx)) for g in groups}
     for i, p in enumerate(prey):
-        kills[p.group] += grid_of([r.kills_per_predator_per_year[i] for r in results])
-    extra = None
-    if request.gradient is not None:
-        extra = grid_of([r.marginal_extra for r in results])
+        kills[p.group] += grid_of(kills_by_prey[:, i])
+    extra = grid_of(reduced.extra) if request.gradient is not None else None
+    # (cells, 2, P) -> (2, P, ny, nx)
+    codes = np.concatenate(reduced.codes).reshape(ny, nx, 2, len(prey)).transpose(2, 3, 0, 1)
+    thresholds = np.concatenate(reduced.thresholds).reshape(ny, nx, 2, len(prey)
+                                                            ).transpose(2, 3, 0, 1)
+    sx, sy = study_values(study, request)
     return MapResult(
         request=request,
         x=request.x.values,
@@ -407,13 +576,20 @@ def _assemble(study: Study, request: MapRequest, results: list[CellResult]) -> M
         regime_injured=grid_of(regimes[:, 1], object).astype(str),
         regime_healthy_detail=grid_of(regimes[:, 2], object).astype(str),
         regime_injured_detail=grid_of(regimes[:, 3], object).astype(str),
-        fitness_at_start=grid_of([r.fitness_at_start for r in results]),
-        marginal_hunting_ability=grid_of([r.marginal_hunting_ability for r in results]),
+        fitness_at_start=grid_of(reduced.fitness),
+        marginal_hunting_ability=grid_of(reduced.marginal),
         marginal_extra=extra,
         kills_per_year=kills,
         groups=tuple(groups),
-        max_residual=float(max(r.residual for r in results)),
+        max_residual=reduced.residual,
         currency=pred.currency,
+        prey=tuple(p.name for p in prey),
+        prey_groups=tuple(p.group for p in prey),
+        prey_risky=tuple(p.risky for p in prey),
+        when_codes=np.ascontiguousarray(codes),
+        when_threshold=np.ascontiguousarray(thresholds),
+        study_x=sx,
+        study_y=sy,
     )
 
 

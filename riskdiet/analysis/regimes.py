@@ -149,3 +149,84 @@ def _name(sets: list[str], thresholds: list[float]) -> str:
                      f"{100 * thresholds[k]:.0f} %")
     parts.append(f"{sets[-1]} above")
     return "reserve-dependent: " + ", ".join(parts)
+
+
+# --- When each prey is attacked --------------------------------------------------------------
+
+WHEN_NEVER, WHEN_ALL, WHEN_LOW, WHEN_HIGH, WHEN_OTHER = range(5)
+WHEN_KEYS = ("never", "all_reserves", "low_reserves", "high_reserves", "other")
+"""Machine-readable names of the when-attacked categories, by code (map.csv, netCDF)."""
+WHEN_WORDS = ("never", "at all reserves", "only when reserves are low",
+              "only when reserves are high", "other")
+"""The same categories in words, by code (figures, sentences)."""
+WHEN_SHORT = ("never", "always", "when low", "when high", "other")
+"""Short labels of the categories for figure keys, by code."""
+
+
+def when_attacked(attacked: np.ndarray, fractions: np.ndarray
+                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """When each prey is attacked, read from low to high reserves, for many attack tables.
+
+    One prey's attacked levels are put in one of five categories:
+
+    * ``never`` — attacked at no level;
+    * ``at all reserves`` — one unbroken run from the lowest level at which
+      *anything* is attacked up to the top living level (levels at the bottom
+      where no prey is worth attacking are the same for every prey and do not
+      count against "all");
+    * ``only when reserves are low`` — one run that starts at that lowest level
+      and stops below the top; its threshold is the highest reserve fraction at
+      which the prey is still attacked;
+    * ``only when reserves are high`` — one run that reaches the top but starts
+      above that lowest level; its threshold is the lowest reserve fraction at
+      which it is attacked;
+    * ``other`` — several runs, or one run in the middle.
+
+    This is the per-prey reading of MODEL.md section 7 that the findings
+    (:func:`riskdiet.analysis.findings.attack_pattern`) and the maps share.
+
+    Parameters
+    ----------
+    attacked : ndarray of bool, shape (..., m, P)
+        Whether each prey is worth attacking at each living level, low to high.
+    fractions : ndarray, shape (m,)
+        Reserve fraction of each living level [fraction of capacity].
+
+    Returns
+    -------
+    codes : ndarray of int8, shape (..., P)
+        Category codes (:data:`WHEN_KEYS` gives their names).
+    lower, upper : ndarray of float, shape (..., P)
+        Lowest and highest reserve fraction at which each prey is attacked
+        (NaN when never) [fraction of capacity].
+    """
+    attacked = np.asarray(attacked, dtype=bool)
+    fractions = np.asarray(fractions, dtype=float)
+    m = attacked.shape[-2]
+    any_level = attacked.any(axis=-1)                               # (..., m)
+    lowest_any = np.argmax(any_level, axis=-1)[..., None]           # (..., 1)
+    taken = attacked.any(axis=-2)                                   # (..., P)
+    lo = np.argmax(attacked, axis=-2)                               # (..., P)
+    hi = m - 1 - np.argmax(attacked[..., ::-1, :], axis=-2)
+    starts = attacked[..., 0, :].astype(int) + (attacked[..., 1:, :]
+                                                & ~attacked[..., :-1, :]).sum(axis=-2)
+    one_run = starts == 1
+    from_bottom = lo <= lowest_any
+    to_top = hi == m - 1
+    codes = np.full(taken.shape, WHEN_OTHER, dtype=np.int8)
+    codes[one_run & from_bottom & to_top] = WHEN_ALL
+    codes[one_run & from_bottom & ~to_top] = WHEN_LOW
+    codes[one_run & ~from_bottom & to_top] = WHEN_HIGH
+    codes[~taken] = WHEN_NEVER
+    lower = np.where(taken, fractions[lo], np.nan)
+    upper = np.where(taken, fractions[hi], np.nan)
+    return codes, lower, upper
+
+
+def when_threshold(codes: np.ndarray, lower: np.ndarray, upper: np.ndarray) -> np.ndarray:
+    """The reserve fraction that bounds a one-sided category, NaN for the others.
+
+    ``only when reserves are low``: the highest fraction at which the prey is
+    still attacked; ``only when reserves are high``: the lowest.
+    """
+    return np.where(codes == WHEN_LOW, upper, np.where(codes == WHEN_HIGH, lower, np.nan))

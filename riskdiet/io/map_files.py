@@ -10,7 +10,10 @@ from riskdiet.io.atomic import OutputSet, check_writable, write_atomic
 
 
 def write_map_csv(result: MapResult, path: Path, force: bool = False, outputs=None) -> Path:
-    """map.csv: columns x, y, regime_healthy, regime_injured, ..., kills_per_year_<group>."""
+    """map.csv, one row per cell: the two axis columns named after their inputs (e.g.
+    ``wild boar:encounter_share``, ``hunting_ability``), the regimes with their detailed
+    sequences, ``when_attacked_<condition>:<prey>`` and ``reserve_threshold_<condition>:<prey>``
+    for every prey, fitness, marginal values and kills by group (README, "Maps")."""
     def write(tmp: Path) -> None:
         with open(tmp, "w", newline="", encoding="utf-8") as fh:
             out = csv.writer(fh)
@@ -28,7 +31,8 @@ def map_file_paths(study, request, folder: str | Path, group: str | None) -> lis
     if group is None:
         _, prey = study.inputs_for(study.scenario(request.scenario))
         group = first_unwanted_group([p.group for p in prey])
-    return [folder / "map.csv"] + [folder / f"{k}{s}" for k in figure_keys(group)
+    return [folder / "map.csv"] + [folder / f"{k}{s}"
+                                   for k in figure_keys(group, gradient=request.gradient)
                                    for s in (".png", ".svg")]
 
 
@@ -45,7 +49,7 @@ def check_map_files(study, request, folder: str | Path, group: str | None,
 
 def write_map_files(result: MapResult, folder: str | Path, group: str, force: bool = False,
                     outputs: OutputSet | None = None) -> list[Path]:
-    """Write map.csv and the three map figures into ``folder``, together or not at all."""
+    """Write map.csv and the map figures into ``folder``, together or not at all."""
     from riskdiet.report.figures import write_figures
     from riskdiet.report.map_figures import map_figures
 

@@ -145,3 +145,65 @@ def svg_bytes(figure) -> bytes:
     with _style():
         figure.savefig(buffer, format="svg", metadata={"Date": None, "Creator": None})
     return buffer.getvalue()
+
+
+# --- One colour scheme per kind of thing --------------------------------------------------------
+# Prey take the colours of PALETTE (by their place in the study's prey list), in every figure.
+# Scenarios take neutral greys, and the when-attacked categories of the maps a fixed key of
+# their own, so a colour never means a prey in one figure and a scenario or a regime in another.
+
+
+def prey_bar_style(index: int) -> dict:
+    """Fill, hatch and edge of the prey listed at ``index`` in the study (every figure)."""
+    return _bar_style(index)
+
+
+def prey_colour(index: int) -> str:
+    """Fill colour of the prey listed at ``index`` in the study (every figure)."""
+    return prey_style(index)[0]
+
+
+SCENARIO_GREYS = ("#1a1a1a", "#6b6b6b", "#a8a8a8", "#e3e3e3")
+"""Bar fills of scenarios, in order: neutral greys (no prey colour is grey), told apart
+by lightness and, past four scenarios, by hatch."""
+SCENARIO_LINE_GREYS = ("#000000", "#5a5a5a", "#969696")
+"""Line colours of scenarios, with dash pattern and marker as the main difference."""
+
+
+def scenario_bar_style(index: int) -> dict:
+    """Fill, hatch and edge of the scenario at ``index`` (bars)."""
+    fill = SCENARIO_GREYS[index % len(SCENARIO_GREYS)]
+    hatch = HATCHES[(index // len(SCENARIO_GREYS)) % len(HATCHES)]
+    return {"facecolor": fill, "hatch": hatch, "edgecolor": hatch_colour(fill),
+            "linewidth": 0.0}
+
+
+def scenario_line_style(index: int) -> dict:
+    """Colour, dash pattern and marker of the scenario at ``index`` (lines)."""
+    return {"color": SCENARIO_LINE_GREYS[index % len(SCENARIO_LINE_GREYS)],
+            "linestyle": LINE_STYLES[index % len(LINE_STYLES)],
+            "marker": MARKERS[index % len(MARKERS)]}
+
+
+CONDITION_LINES = ({"color": "#000000", "linestyle": "-"},
+                   {"color": "#6b6b6b", "linestyle": "--"})
+"""Lines of a healthy and an injured animal: black and grey, solid and dashed."""
+
+REGIME_STYLE = (
+    ("#ffffff", ""),       # never
+    ("#0b5d66", ""),       # at all reserves: dark teal
+    ("#8fd6cc", "...."),   # only when reserves are low: mint, dotted
+    ("#c45a8f", "////"),   # only when reserves are high: magenta, hatched
+    ("#d9c89a", "xxx"),    # other: sand, cross-hatched
+)
+"""Fill and hatch of each when-attacked category, by code of
+:data:`riskdiet.analysis.regimes.WHEN_KEYS`: a key of its own, at least 20 CIELAB
+units from every prey colour, lightness falling from "never" to "at all reserves",
+and a distinct hatch wherever two fills could look alike."""
+
+
+def regime_bar_style(code: int) -> dict:
+    """Fill, hatch and edge of a when-attacked category (map panels and their key)."""
+    fill, hatch = REGIME_STYLE[code]
+    return {"facecolor": fill, "hatch": hatch, "edgecolor": hatch_colour(fill),
+            "linewidth": 0.0}

@@ -22,16 +22,16 @@ import numpy as np
 
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult
 from riskdiet.report.figure_style import (
+    CONDITION_LINES,
     DPI_EXPORT,
-    LINE_STYLES,
-    MARKERS,
     MAX_BARS,
-    PALETTE,
     WIDTH_IN,
     BriefFigure,
-    _bar_style,
     _style,
     png_bytes,
+    prey_bar_style,
+    scenario_bar_style,
+    scenario_line_style,
     short_label,
     slug,
     svg_bytes,
@@ -99,7 +99,7 @@ def decision_figure(result: ScenarioResult) -> object:
                          for r in ranges if r.prey == name and r.condition == cond]
                 if spans:
                     bands.broken_barh(spans, (y - 0.38, 0.76), gid=f"{cond}:{name}",
-                                      **_bar_style(i))
+                                      **prey_bar_style(i))
             centre = offset + (n_prey - 1) / 2
             bands.text(1.012, centre, cond, transform=bands.get_yaxis_transform(),
                        rotation=90, va="center", ha="left", fontsize=8, fontweight="bold")
@@ -128,8 +128,8 @@ def decision_figure(result: ScenarioResult) -> object:
         reserves = np.arange(n + 1) / n
         for k, cond in enumerate(CONDITIONS):
             values = np.asarray(result.fitness[cond], dtype=float)
-            curve.plot(reserves, values, color=("#000000", PALETTE[1])[k],
-                       linestyle=("-", "--")[k], linewidth=(1.4, 1.6)[k], label=cond,
+            curve.plot(reserves, values, **CONDITION_LINES[k],
+                       linewidth=(1.4, 1.6)[k], label=cond,
                        gid=f"fitness:{cond}")
         curve.set_ylim(-0.02, 1.02)
         curve.set_ylabel("probability")
@@ -142,7 +142,7 @@ def decision_figure(result: ScenarioResult) -> object:
         top = bands.secondary_xaxis("top", functions=(lambda f: f * capacity,
                                                       lambda mj: mj / capacity))
         top.set_xlabel("reserves [MJ]")
-        handles = [Patch(label=short_label(name, 30), **_bar_style(i))
+        handles = [Patch(label=short_label(name, 30), **prey_bar_style(i))
                    for i, name in enumerate(names)] + extra
         fig.legend(handles=handles, loc="outside lower center", ncols=legend_cols,
                    frameon=False, handlelength=2.2, handleheight=1.1)
@@ -226,7 +226,7 @@ def kills_figure(result: StudyResult, currency: str = "breeding") -> object | No
         for r, name in enumerate(scenarios):
             y = centres - 0.4 + thick * (r + 0.5)
             ax.barh(y, values[r], height=thick * 0.92, label=short_label(name, 34),
-                    gid=f"kills:{name}", **_bar_style(r))
+                    gid=f"kills:{name}", **scenario_bar_style(r))
             if n_s * n_c <= 40:
                 for yy, v in zip(y, values[r], strict=True):
                     ax.text(v + 0.01 * max(top, 1e-9), yy, _count(v), va="center",
@@ -272,9 +272,7 @@ def season_figure(result: StudyResult) -> object | None:
             z = s.season_kills
             days = np.arange(len(z.survival_by_day))
             every = max(1, len(days) // 8)
-            style = {"color": PALETTE[r % len(PALETTE)],
-                     "linestyle": LINE_STYLES[r % len(LINE_STYLES)],
-                     "marker": MARKERS[r % len(MARKERS)], "markevery": (r % every, every),
+            style = {**scenario_line_style(r), "markevery": (r % every, every),
                      "markersize": 3.5, "linewidth": 1.3}
             left.plot(days, z.survival_by_day, label=short_label(s.name, 34),
                       gid=f"survival:{s.name}", **style)
