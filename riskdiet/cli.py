@@ -371,11 +371,14 @@ def map_command(
                                          "(needs riskdiet\\[cluster])."),
     quiet: bool = typer.Option(False, "--quiet", help="No progress bar."),
     force: bool = typer.Option(False, "--force", help="Replace existing output files."),
+    netcdf: Path | None = typer.Option(None, "--netcdf", help="Also write the map as a "
+                                       "netCDF file (xarray Dataset with units; needs "
+                                       "riskdiet\\[netcdf])."),
 ) -> None:
     """Map the decision rule, the value of hunting skill and kills over two inputs.
 
     Example (after riskdiet demo): riskdiet map riskdiet-demo/harrow-vale.xlsx --x "wild
-    boar:encounter_share=0:1:41" --y "hunting_ability=0.2:1.6:41" --out maps/
+    boar:encounter_share=0:1:41" --y "hunting_ability=0.2:1.6:41" --out maps/ --netcdf map.nc
     """
     from riskdiet.io.atomic import OutputSet
 
@@ -384,6 +387,11 @@ def map_command(
         loaded = _load(study)
         request = _map_request(loaded, x, y, scenario, gradient)
         chosen = _map_group(loaded, group)
+        if netcdf is not None:
+            from riskdiet.io.map_netcdf import require_xarray
+
+            require_xarray()  # one line and nothing written when xarray is missing
+            outputs.plan(netcdf)
         if out is not None:
             from riskdiet.io.map_files import check_map_files
 
@@ -398,6 +406,10 @@ def map_command(
             from riskdiet.io.map_files import write_map_files
 
             write_map_files(result, out, chosen, force, outputs)
+        if netcdf is not None:
+            from riskdiet.io.map_netcdf import write_map_netcdf
+
+            write_map_netcdf(result, netcdf, force, outputs, loaded.name, str(study))
         written = outputs.commit()
     console = _stdout()
     for line in read_map(result, chosen):

@@ -69,27 +69,35 @@ def read_rows(path):
 
 def test_map_writes_one_csv_row_per_cell_with_the_documented_columns(small_study, written):
     """map.csv has a header and one record per cell (RFC 4180) with the columns
-    x, y, regime_healthy, regime_injured, fitness_at_start,
-    marginal_hunting_ability, the --gradient column and kills_per_year_<group>
-    for every prey group; its numbers are the library's map to the last bit
-    (float repr round-trip)."""
+    documented in README "Maps": the two axes named after their inputs
+    (``wild boar:encounter_share``, ``hunting_ability``; never ``x``/``y``), the
+    regimes and their detailed sequences, ``when_attacked_<condition>:<prey>``
+    and ``reserve_threshold_<condition>:<prey>`` for every prey, fitness, the
+    marginal values (with the --gradient column) and kills_per_year_<group>;
+    its numbers are the library's map to the last bit (float repr round-trip)."""
     out, result = written
     header, rows = read_rows(out / "map.csv")
     study = load_study(small_study)
     groups = sorted({p.group for p in study.prey})
-    required = ["x", "y", "regime_healthy", "regime_injured", "fitness_at_start",
-                "marginal_hunting_ability", f"marginal_{GRADIENT}",
-                *[f"kills_per_year_{g}" for g in groups]]
+    xkey, ykey = "wild boar:encounter_share", "hunting_ability"
+    required = [xkey, ykey, "regime_healthy", "regime_injured", "regime_healthy_detail",
+                "regime_injured_detail", "fitness_at_start", "marginal_hunting_ability",
+                f"marginal_{GRADIENT}", *[f"kills_per_year_{g}" for g in groups],
+                *[f"{kind}_{cond}:{p.name}" for kind in ("when_attacked", "reserve_threshold")
+                  for cond in ("healthy", "injured") for p in study.prey]]
     assert set(required) <= set(header)
+    assert "x" not in header and "y" not in header
+    assert header[:2] == [xkey, ykey]
     assert len(rows) == 6 * 5
     request = MapRequest("baseline", parse_axis(X, study, "--x"), parse_axis(Y, study, "--y"),
                          ("wild boar", "energy_mj"))
     expected = make_map(study, request)
-    cells = {(float(r["x"]), float(r["y"])) for r in rows}
+    cells = {(float(r[xkey]), float(r[ykey])) for r in rows}
     assert cells == {(float(x), float(y)) for x in expected.x for y in expected.y}
+    keys = ("never", "all_reserves", "low_reserves", "high_reserves", "other")
     for n, row in enumerate(rows):
         iy, ix = divmod(n, 6)
-        assert float(row["x"]) == expected.x[ix] and float(row["y"]) == expected.y[iy]
+        assert float(row[xkey]) == expected.x[ix] and float(row[ykey]) == expected.y[iy]
         assert float(row["fitness_at_start"]) == expected.fitness_at_start[iy, ix]
         assert float(row["marginal_hunting_ability"]) == expected.marginal_hunting_ability[iy, ix]
         assert float(row[f"marginal_{GRADIENT}"]) == expected.marginal_extra[iy, ix]
@@ -97,20 +105,30 @@ def test_map_writes_one_csv_row_per_cell_with_the_documented_columns(small_study
         assert row["regime_injured"] == expected.regime_injured[iy, ix]
         for g in groups:
             assert float(row[f"kills_per_year_{g}"]) == expected.kills_per_year[g][iy, ix]
+        for k, cond in enumerate(("healthy", "injured")):
+            for i, p in enumerate(study.prey):
+                code = expected.when_codes[k, i, iy, ix]
+                assert row[f"when_attacked_{cond}:{p.name}"] == keys[code]
+                threshold = row[f"reserve_threshold_{cond}:{p.name}"]
+                if keys[code] in ("low_reserves", "high_reserves"):
+                    assert 0 < float(threshold) <= 1
+                else:
+                    assert threshold == ""
     assert "wrote" in result.stdout
 
 
 def test_map_writes_png_and_svg_figures(written):
-    """The regime, hunting-ability and kills maps are written as PNG (8-byte
+    """The regime, hunting-ability, kills and (asked for with --gradient) gradient maps
+    are written as PNG (8-byte
     signature, PNG spec section 5.2) and SVG (root element svg in the SVG
     namespace, SVG 1.1)."""
     out, _ = written
     pngs = sorted(out.glob("*.png"))
     svgs = sorted(out.glob("*.svg"))
-    assert len(pngs) == 3 and len(svgs) == 3
+    assert len(pngs) == 4 and len(svgs) == 4
     assert {p.stem for p in pngs} == {p.stem for p in svgs}
     stems = " ".join(p.stem for p in pngs)
-    for part in ("regimes", "hunting-ability", "kills"):
+    for part in ("regimes", "hunting-ability", "kills", "gradient-wild-boar-energy-mj"):
         assert part in stems
     for p in pngs:
         assert p.read_bytes()[:8] == PNG_SIGNATURE

@@ -15,11 +15,13 @@ def map_section(b: Builder) -> None:
     b.heading(MAPS)
     b.para(
         "A map repeats the whole calculation over a grid of two inputs while everything else "
-        f"stays as in scenario “{esc(req.scenario)}”: {esc(req.x.label)} across, "
-        f"{esc(req.y.label)} up. It shows where the decision rule changes, where better "
-        "hunting would pay, and how the predicted kills respond. Regimes are read from low to "
-        "high reserves; short runs of a few levels are folded into their neighbours (the "
-        "exact thresholds of every cell are in the results workbook's Map sheet).")
+        f"stays as in scenario “{esc(req.scenario)}”: {esc(req.x.words)} across, "
+        f"{esc(req.y.words)} up; a star marks the study's own values. It shows when each prey "
+        "that matters to the plan (risky prey, livestock and protected groups) is attacked — "
+        "never, at all reserves, only when reserves are low or only when they are high, read "
+        "from low to high reserves, the same reading as the findings — where better hunting "
+        "would pay, and how the predicted kills respond. The full sequence of attacked prey "
+        "in every cell is in the results workbook's Map sheet (and map.csv).")
     group = default_group(surface)
     b.para(" ".join(esc(line) for line in read_map(surface, group)))
     for key in [k for k in b.figure_order if "-map-" in k]:

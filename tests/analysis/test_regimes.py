@@ -13,8 +13,16 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
-from riskdiet.analysis.regimes import MERGE_FRACTION, classify
+from riskdiet.analysis.regimes import (
+    MERGE_FRACTION,
+    WHEN_KEYS,
+    classify,
+    when_attacked,
+    when_threshold,
+)
 
 NAMES = ["hare", "deer", "boar"]
 RISKY = np.array([False, True, True])
@@ -129,3 +137,107 @@ def test_long_runs_are_never_merged():
     regime = classify(attacked, RISKY, NAMES, fractions_of(39, 40))
     assert regime.category == "reserve-dependent: low-risk prey only, then all prey"
     assert regime.thresholds == pytest.approx((0.075,), abs=1e-15)
+
+
+# ------------------------------------------------------------------ when each prey is taken
+
+
+def runs_of(column: np.ndarray) -> list[tuple[int, int]]:
+    """First and last index of every run of True (written for the test)."""
+    out, start = [], None
+    for j, v in enumerate([*column.tolist(), False]):
+        if v and start is None:
+            start = j
+        elif not v and start is not None:
+            out.append((start, j - 1))
+            start = None
+    return out
+
+
+def by_hand(attacked: np.ndarray, fractions: np.ndarray) -> list[tuple[str, float]]:
+    """The when-attacked category and threshold of each prey, read straight from the
+    definition (module docstring of regimes.when_attacked; common practice for
+    "taken only when reserves are low / high"): one run from the lowest level at
+    which anything is attacked to the top is "all", one run from that level that
+    stops below the top is "low" (threshold: its highest level), one run reaching
+    the top from higher up is "high" (threshold: its lowest level), anything else
+    "other"."""
+    any_rows = np.flatnonzero(attacked.any(axis=1))
+    out = []
+    for i in range(attacked.shape[1]):
+        runs = runs_of(attacked[:, i])
+        if not runs:
+            out.append(("never", np.nan))
+            continue
+        top = attacked.shape[0] - 1
+        if len(runs) == 1 and runs[0][0] == any_rows[0] and runs[0][1] == top:
+            out.append(("all_reserves", np.nan))
+        elif len(runs) == 1 and runs[0][0] == any_rows[0]:
+            out.append(("low_reserves", fractions[runs[0][1]]))
+        elif len(runs) == 1 and runs[0][1] == top:
+            out.append(("high_reserves", fractions[runs[0][0]]))
+        else:
+            out.append(("other", np.nan))
+    return out
+
+
+def test_when_attacked_on_a_hand_built_table():
+    """Ten living levels of a grid with n = 10 (fractions 0.1 ... 1.0). Levels 1-2
+    attack nothing (hopeless). Hare is taken from level 3 to the top: "at all
+    reserves" — the hopeless bottom does not count against it. Deer from level 3
+    to 6: "only when reserves are low", threshold 0.6 (its highest level). Boar
+    from level 8 to the top: "only when reserves are high", threshold 0.8. Each
+    worked by hand from the definition (MODEL.md section 7 read per prey;
+    common-practice wording)."""
+    attacked = table(10, [(2, [False, False, False]), (4, [True, True, False]),
+                          (1, [True, False, False]), (3, [True, False, True])])
+    codes, lower, upper = when_attacked(attacked, fractions_of(10, 10))
+    assert [WHEN_KEYS[c] for c in codes] == ["all_reserves", "low_reserves", "high_reserves"]
+    threshold = when_threshold(codes, lower, upper)
+    assert np.isnan(threshold[0])
+    assert threshold[1] == pytest.approx(0.6)
+    assert threshold[2] == pytest.approx(0.8)
+    assert lower.tolist() == pytest.approx([0.3, 0.3, 0.8])
+    assert upper.tolist() == pytest.approx([1.0, 0.6, 1.0])
+
+
+@pytest.mark.parametrize(("column", "expected"), [
+    ([0, 0, 0, 0, 0, 0], "never"),
+    ([1, 1, 0, 0, 1, 1], "other"),      # two runs: taken when low and when high
+    ([0, 1, 1, 0, 0, 0], "other"),      # one run in the middle
+    ([1, 1, 1, 1, 1, 1], "all_reserves"),
+    ([1, 0, 0, 0, 0, 0], "low_reserves"),
+    ([0, 0, 0, 0, 0, 1], "high_reserves"),
+])
+def test_when_attacked_categories(column, expected):
+    """One prey beside a hare taken at every level (so the lowest level with an
+    attack is level 1): the category follows the definition worked by hand —
+    never; two runs or a run in the middle are "other"; one run from the bottom
+    to the top is "at all reserves"; from the bottom only "low"; to the top only
+    "high" (common-practice wording)."""
+    attacked = np.array([[True, bool(v)] for v in column])
+    codes, _, _ = when_attacked(attacked, fractions_of(6, 6))
+    assert WHEN_KEYS[codes[1]] == expected
+    assert WHEN_KEYS[codes[0]] == "all_reserves"
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.integers(2, 12).flatmap(lambda m: st.lists(
+    st.lists(st.booleans(), min_size=3, max_size=3), min_size=m, max_size=m)))
+def test_when_attacked_matches_the_definition_on_any_table(rows):
+    """For any attack table (levels x 3 prey) the vectorised reading equals the
+    run-by-run reading of the definition written separately in this test; and a
+    stack of tables is read like each table alone."""
+    attacked = np.array(rows, dtype=bool)
+    fractions = fractions_of(len(rows), len(rows) + 1)
+    codes, lower, upper = when_attacked(attacked, fractions)
+    thresholds = when_threshold(codes, lower, upper)
+    for i, (key, threshold) in enumerate(by_hand(attacked, fractions)):
+        assert WHEN_KEYS[codes[i]] == key
+        if np.isnan(threshold):
+            assert np.isnan(thresholds[i])
+        else:
+            assert thresholds[i] == threshold
+    stacked, _, _ = when_attacked(np.stack([attacked, ~attacked]), fractions)
+    assert stacked[0].tolist() == codes.tolist()
+    assert stacked[1].tolist() == when_attacked(~attacked, fractions)[0].tolist()
