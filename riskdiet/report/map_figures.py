@@ -15,8 +15,8 @@ import textwrap
 import numpy as np
 
 from riskdiet.analysis.findings import WILD_GROUPS
-from riskdiet.analysis.map_reading import gradient_words, gradient_sentence, what_fitness
-from riskdiet.analysis.maps import CONDITION_NAMES, MapResult
+from riskdiet.analysis.map_reading import gradient_sentence, gradient_words, what_fitness
+from riskdiet.analysis.maps import MapResult
 from riskdiet.analysis.regimes import WHEN_ALL, WHEN_HIGH, WHEN_LOW, WHEN_NEVER, WHEN_OTHER
 from riskdiet.report.figure_style import (
     REGIME_STYLE,
@@ -174,7 +174,8 @@ def when_figure(result: MapResult) -> object:
                         label.set_path_effects(_halo())
                 _mark_study(ax, result)
                 ax.add_patch(Rectangle((0, 1.015), 1, 0.05, transform=ax.transAxes,
-                                       clip_on=False, **prey_bar_style(i)))
+                                       clip_on=False, gid=f"prey:{result.prey[i]}",
+                                       **prey_bar_style(i)))
                 name = textwrap.shorten(result.prey[i], 28, placeholder="…")
                 who = "healthy" if k == 0 else "injured"
                 title = f"{name} — {who} animal" if len(conditions) > 1 else name
@@ -352,6 +353,3 @@ def map_figures(result: MapResult, group: str | None = None, first: int = 1
 def _list(names: list[str]) -> str:
     return names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
 
-
-__all__ = ["CONDITION_NAMES", "default_group", "figure_keys", "first_unwanted_group",
-           "map_figures", "marginal_figure", "gradient_figure", "kills_figure", "when_figure"]

@@ -475,3 +475,20 @@ def test_map_through_a_process_pool_equals_inline(inline_map):
     with ProcessPoolExecutor(2) as pool:
         result = make_map(study, req, pool, bands=4)
     assert_same_map(result, inline)
+
+
+def test_solving_in_small_blocks_gives_the_same_map(monkeypatch):
+    """Maps are solved in blocks whose policies are read and dropped (memory stays
+    modest); blocks of 4 cells, with a block boundary inside a row, give the same
+    map to the bit as one block (the cells are independent solves, MODEL.md
+    section 3)."""
+    import riskdiet.analysis.maps as maps
+
+    study = demo_study(24)
+    req = map_request(study, "wild boar:encounter_share=0:0.8:5", "hunting_ability=0.5:1.5:3")
+    whole = make_map(study, req)
+    monkeypatch.setattr(maps, "BLOCK_CELLS", 4)
+    pieces = make_map(study, req)
+    assert pieces.rows() == whole.rows()
+    np.testing.assert_array_equal(pieces.when_codes, whole.when_codes)
+    np.testing.assert_array_equal(pieces.when_threshold, whole.when_threshold)
