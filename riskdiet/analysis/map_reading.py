@@ -119,7 +119,7 @@ def prey_sentence(result: MapResult, i: int, k: int) -> str:
             span = (_pct(t.min()) if t.max() - t.min() < 0.005
                     else f"{100 * t.min():.0f}–{_pct(t.max())}")
             part += f" ({side} {span} of capacity)"
-        if rank > 0:
+        if rank == 1:  # where the second pattern lies; the rest stay short
             part += f", where {_where(result, mask)}"
         parts.append(part)
     who = "a healthy" if k == 0 else "an injured"

@@ -23,7 +23,12 @@ def map_section(b: Builder) -> None:
         "would pay, and how the predicted kills respond. The full sequence of attacked prey "
         "in every cell is in the results workbook's Map sheet (and map.csv).")
     group = default_group(surface)
-    b.para(" ".join(esc(line) for line in read_map(surface, group)))
+    lines = read_map(surface, group)
+    # when each prey is attacked in one paragraph, the values of skill and the kills in another
+    split = next((k for k, line in enumerate(lines) if line.startswith("A higher")), len(lines))
+    b.para(" ".join(esc(line) for line in lines[:split]))
+    if lines[split:]:
+        b.para(" ".join(esc(line) for line in lines[split:]))
     for key in [k for k in b.figure_order if "-map-" in k]:
         b.figure(key)
     b.para(f"Largest Bellman residual over the {surface.x.size * surface.y.size} cells: "
