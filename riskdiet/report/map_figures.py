@@ -146,7 +146,9 @@ def when_figure(result: MapResult) -> object:
     nrows = rows_per_cond * len(conditions)
     panel_in = (WIDTH_IN - 0.9) / ncols
     with _style():
-        fig = Figure(figsize=(WIDTH_IN, nrows * (panel_in * 0.78 + 0.75) + 0.9),
+        panel_h = min(panel_in * 0.78, 2.8)
+        band = 0.08 / panel_h  # a band about 0.08 in high above each panel, whatever its size
+        fig = Figure(figsize=(WIDTH_IN, nrows * (panel_h + 0.75) + 0.9),
                      layout="constrained")
         axes = np.atleast_2d(fig.subplots(nrows, ncols, sharex=True, sharey=True,
                                           squeeze=False))
@@ -173,14 +175,14 @@ def when_figure(result: MapResult) -> object:
                     for label in labels:
                         label.set_path_effects(_halo())
                 _mark_study(ax, result)
-                ax.add_patch(Rectangle((0, 1.015), 1, 0.05, transform=ax.transAxes,
+                ax.add_patch(Rectangle((0, 1.015), 1, band, transform=ax.transAxes,
                                        clip_on=False, gid=f"prey:{result.prey[i]}",
                                        **prey_bar_style(i)))
                 name = textwrap.shorten(result.prey[i], 28, placeholder="…")
                 who = "healthy" if k == 0 else "injured"
                 title = f"{name} — {who} animal" if len(conditions) > 1 else name
                 ranges = _threshold_ranges(result.when_codes[k, i], t)
-                ax.set_title(title + (f"\n{ranges}" if ranges else ""), pad=9, fontsize=8.5)
+                ax.set_title(title + (f"\n{ranges}" if ranges else ""), pad=10, fontsize=8.5)
                 if p_pos % ncols == 0:
                     ax.set_ylabel(textwrap.fill(result.request.y.label, 26))
         for r, c in np.ndindex(nrows, ncols):
@@ -329,13 +331,14 @@ def map_figures(result: MapResult, group: str | None = None, first: int = 1
     star = (f" The star marks the {'study' if sc == 'baseline' else 'scenario'}'s own "
             "values." if _inside(result) else _outside_note(result))
     conds = shown_conditions(result)
-    who = ("a healthy and an injured animal" if len(conds) == 2
-           else "a healthy animal (an injured one attacks them alike)")
+    who = ("by a healthy animal (top) and an injured one (bottom)" if len(conds) == 2
+           else "by a healthy animal (an injured one does the same)")
     names = [result.prey[i] for i in result.focus]
     out = [
-        BriefFigure(keys[0], f"Scenario “{sc}”: when {who} attacks "
-                    + _list(names) + ", across the map. Lines give the reserves (% of "
-                    "capacity) below or above which the prey is taken." + star,
+        BriefFigure(keys[0], f"Scenario “{sc}”: when {_list(names)} "
+                    + ("is" if len(names) == 1 else "are") + f" attacked {who}, across the "
+                    "map. Lines give the reserves (% of capacity) below or above which the "
+                    "prey is taken." + star,
                     when_figure(result)),
         BriefFigure(keys[1], f"Scenario “{sc}”: value of better hunting (policy held fixed)"
                     + ("; the solid black line is where better hunting stops paying (zero)."
@@ -345,8 +348,10 @@ def map_figures(result: MapResult, group: str | None = None, first: int = 1
                     kills_figure(result, group)),
     ]
     if result.request.gradient is not None:
-        out.append(BriefFigure(keys[3], f"Scenario “{sc}”: " + gradient_sentence(result)
-                               + star, gradient_figure(result)))
+        words, _ = gradient_words(result)
+        out.append(BriefFigure(keys[3], f"Scenario “{sc}”: value of a higher {words} (policy "
+                               "held fixed). " + gradient_sentence(result) + star,
+                               gradient_figure(result)))
     return out
 
 
