@@ -225,3 +225,18 @@ def test_two_workers_write_the_same_map_as_one(small_study, written, tmp_path):
     result = run_map(small_study, tmp_path, "--gradient", GRADIENT, "--workers", "2")
     assert result.exit_code == 0, result.stderr
     assert (tmp_path / "map.csv").read_bytes() == (out / "map.csv").read_bytes()
+
+
+def test_map_prints_when_each_prey_is_attacked_and_the_gradient_in_words(written):
+    """The command's text output reads the map in words: when each prey that
+    matters (the risky wild boar, livestock upland ewe, protected heath grouse of
+    the demo) is attacked, where the study sits, and — asked for with --gradient —
+    one sentence on the value of a higher energy per capture of wild boar."""
+    _, result = written
+    out = result.stdout
+    for name in ("wild boar", "upland ewe", "heath grouse"):
+        assert f"For a healthy animal, {name} is attacked" in out
+    assert "For a healthy animal, forest deer" not in out
+    assert "The study itself has share of all encounters of wild boar" in out
+    assert out.count("A higher energy per capture of wild boar") == 1
+    assert "A higher hunting ability" in out

@@ -33,7 +33,7 @@ REGIME_KEY = (
     (WHEN_ALL, "at all reserves"),
     (WHEN_LOW, "only when reserves are low: below the % on the lines"),
     (WHEN_HIGH, "only when reserves are high: above the % on the lines"),
-    (WHEN_OTHER, "other (several ranges of reserves; see map.csv)"),
+    (WHEN_OTHER, "other (several ranges of reserves, or one in the middle)"),
 )
 """Key of the when-attacked panels: category code and its short label."""
 
