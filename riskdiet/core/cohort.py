@@ -172,6 +172,51 @@ def _block_moves(grid: Grid, parts: list[Outcome]) -> tuple[sp.csr_matrix, np.nd
     return moves_t, breed
 
 
+def _day_moves(grid: Grid, by_length: dict[int, list[Outcome]]
+               ) -> tuple[sp.csr_matrix, np.ndarray, np.ndarray]:
+    """All of a day's moves as one stacked matrix, breeding re-entries included.
+
+    Parameters
+    ----------
+    grid : Grid
+        A stacked grid, breeding currency.
+    by_length : dict of int to list of Outcome
+        The step's outcomes by step length (:func:`_split_by_length`).
+
+    Returns
+    -------
+    stacked : csr_matrix, shape (L_max B S, B S)
+        Block L - 1 (rows (L - 1) B S to L B S - 1) holds the transposed
+        transitions of the steps lasting L days, entry (target, source), with
+        the step's breeding mass moved to the cell's (j_rho, healthy) state.
+    breed : ndarray, shape (L_max, B S)
+        Chance that a step from each state lasts L days and ends in breeding.
+    outflow : ndarray, shape (L_max, B S)
+        Chance that a step from each state lasts L days and is survived (the
+        column sums of block L - 1).
+    """
+    batch, size = grid.cost.shape[0], 2 * grid.n_living
+    total = batch * size
+    longest = max(by_length)
+    restart = np.repeat(np.arange(batch) * size + grid.after_breeding_level - 1, size)
+    rows, cols, vals = [], [], []
+    breed = np.zeros((longest, total))
+    outflow = np.zeros((longest, total))
+    for length, group in by_length.items():
+        moves_t, breed[length - 1] = _block_moves(grid, group)
+        moves_t = moves_t.tocoo()
+        bred = np.flatnonzero(breed[length - 1])
+        source = np.concatenate([moves_t.col, bred])
+        value = np.concatenate([moves_t.data, breed[length - 1, bred]])
+        rows.append(np.concatenate([moves_t.row, restart[bred]]) + (length - 1) * total)
+        cols.append(source)
+        vals.append(value)
+        outflow[length - 1] = np.bincount(source, value, minlength=total)
+    stacked = sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                            shape=(longest * total, total))
+    return stacked, breed, outflow
+
+
 def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortBatch:
     """Forward propagation of one released animal per cell, over the planning horizon.
 
@@ -196,6 +241,11 @@ def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortB
     mass of a step re-enters at (j_rho, healthy) on its end day. The chance of
     being alive on day t adds the mass starting a step on t and the mass in
     the middle of a step it will survive.
+
+    The days are pushed forward with one sparse product each (the transitions
+    of all step lengths stacked, the breeding re-entries folded in); the kills,
+    breeding events and mass in transit are linear in the a_t and are read off
+    the stored a_t afterwards, with a few array products over all days.
     """
     if grid.currency != "breeding":
         raise RiskdietError("cohort_batch covers the breeding currency; the season currency "
@@ -205,36 +255,33 @@ def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortB
     batch = grid.cost.shape[0]
     m, n_prey = grid.n_living, grid.n_prey
     size = 2 * m
+    total = batch * size
     tg = targets(grid)
     attack_prob = attack_probabilities(grid.encounter_prob, np.asarray(priority, dtype=np.intp))
     parts = outcomes(grid, tg, attack_prob)
     kill = kill_probabilities(grid, attack_prob).reshape(batch, size, n_prey)
-    moves = [(length, *_block_moves(grid, group))
-             for length, group in sorted(_split_by_length(parts, grid.handling).items())]
-    longest = max(length for length, _, _ in moves)
-    offset = np.arange(batch) * size
-    restart = offset + grid.after_breeding_level - 1
-    arrivals = np.zeros((horizon_days + longest + 1, batch * size))
-    arrivals[0, offset + grid.start_level - 1] = 1.0
-    transit = np.zeros((horizon_days + longest + 2, batch))  # mass mid-step, difference array
-    kills = np.zeros((batch, n_prey))
-    breeding = np.zeros(batch)
+    stacked, breed, outflow = _day_moves(grid, _split_by_length(parts, grid.handling))
+    longest = breed.shape[0]
+    arrivals = np.zeros((horizon_days + longest + 1, total))
+    arrivals[0, np.arange(batch) * size + grid.start_level - 1] = 1.0
     for t in range(horizon_days):
-        mass = arrivals[t]
-        kills += np.einsum("bs,bsp->bp", mass.reshape(batch, size), kill)
-        for length, moves_t, breed in moves:
-            end = t + length
-            flow = moves_t @ mass
-            bred = (breed * mass).reshape(batch, size).sum(1)
-            arrivals[end] += flow
-            arrivals[end, restart] += bred
-            if end <= horizon_days:
-                breeding += bred
-            if length > 1:
-                moved = flow.reshape(batch, size).sum(1) + bred
-                transit[t + 1] += moved
-                transit[end] -= moved
-    in_transit = np.cumsum(transit, axis=0)[: horizon_days + 1]
+        arrivals[t + 1: t + 1 + longest] += (stacked @ arrivals[t]).reshape(longest, total)
+    started = arrivals[:horizon_days]  # the mass starting a step on days 0..L-1
+    kills = np.einsum("bs,bsp->bp", started.sum(0).reshape(batch, size), kill)
+    breeding = np.zeros(batch)
+    for length in range(1, min(longest, horizon_days) + 1):  # breeding by day L counts
+        ends_in_time = arrivals[: horizon_days - length + 1].sum(0)
+        breeding += (ends_in_time * breed[length - 1]).reshape(batch, size).sum(1)
+    # mass in the middle of a step it survives: a step of L days started on day t is in
+    # transit on days t + 1 .. t + L - 1; summed window by window (all terms >= 0, so the
+    # small survival near the horizon keeps its relative precision)
+    in_transit = np.zeros((horizon_days + 1, batch))
+    if longest > 1:
+        moved = np.einsum("tbs,lbs->ltb", started.reshape(horizon_days, batch, size),
+                          outflow.reshape(longest, batch, size))
+        for length in range(2, longest + 1):
+            for k in range(1, length):
+                in_transit[k:] += moved[length - 1, : horizon_days + 1 - k]
     alive = arrivals[: horizon_days + 1].reshape(horizon_days + 1, batch, size).sum(2)
     alive = np.clip((alive + in_transit).T, 0.0, 1.0)  # rounding only: mass never exceeds one
     if not (np.all(np.isfinite(alive)) and np.all(np.isfinite(kills))
