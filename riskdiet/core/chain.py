@@ -465,6 +465,46 @@ def steady_state(grid: Grid, solution: Solution) -> SteadyState:
     )
 
 
+def kill_rates(grid: Grid, solution: Solution) -> np.ndarray:
+    """Long-run kills per predator per day, K_i, and nothing else.
+
+    Parameters
+    ----------
+    grid : Grid
+        Discretised study, breeding currency.
+    solution : Solution
+        Its optimal policy (:func:`riskdiet.core.solver.solve_breeding`).
+
+    Returns
+    -------
+    ndarray, shape (P,)
+        :attr:`SteadyState.kills_per_day` [1/day].
+
+    Notes
+    -----
+    The grid check compares only these rates (MODEL.md section 8). The
+    lineage's expected visits are a fixed combination of two rows of
+    (I - P)^-1 (:func:`steady_state`, Sherman-Morrison for the breeding
+    reset), so by linearity they take one transposed solve with the combined
+    right-hand side e_j0 + (V(j0) / U(j_rho)) e_rho instead of two.
+    """
+    if grid.currency != "breeding":
+        raise RiskdietError(f"kill_rates needs the breeding currency, found {grid.currency!r}")
+    step = chain_step(grid, solution.living_priority(grid))
+    if not _same_system(solution, step):
+        return steady_state(grid, solution).kills_per_day
+    unit = np.zeros(2 * grid.n_living)
+    restart = grid.after_breeding_level - 1
+    u_restart = solution.complement[0, grid.after_breeding_level]
+    if u_restart < NEVER_DIES:
+        unit[restart] = 1.0
+    else:
+        unit[grid.start_level - 1] = 1.0
+        unit[restart] += solution.fitness[0, grid.start_level] / u_restart
+    pi = _distribution(solution.linear.transposed(unit))
+    return pi @ step.kill_prob / float(pi @ step.days)
+
+
 # ---------------------------------------------------------------------------
 # season currency
 

@@ -40,7 +40,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 
-from riskdiet.core.chain import season_outlook
+from riskdiet.core.chain import SeasonOutlook, season_outlook
 from riskdiet.core.grid import (
     Grid,
     Outcome,
@@ -290,7 +290,8 @@ def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortB
     return CohortBatch(horizon_days, kills, alive, breeding)
 
 
-def released_cohort(grid: Grid, solution: Solution, horizon_days: int) -> CohortOutlook:
+def released_cohort(grid: Grid, solution: Solution, horizon_days: int,
+                    season: SeasonOutlook | None = None) -> CohortOutlook:
     """Forward propagation of one released animal over the planning horizon.
 
     Parameters
@@ -301,6 +302,10 @@ def released_cohort(grid: Grid, solution: Solution, horizon_days: int) -> Cohort
         Its optimal policy (:func:`riskdiet.core.solver.solve_grid`).
     horizon_days : int
         L [day]; ignored in the season currency, whose horizon is the season.
+    season : SeasonOutlook, optional
+        Season currency: the season's propagation when already computed
+        (:func:`riskdiet.core.chain.season_outlook` of the same grid and
+        solution), so that it is not computed twice.
 
     Returns
     -------
@@ -308,7 +313,7 @@ def released_cohort(grid: Grid, solution: Solution, horizon_days: int) -> Cohort
         Per released animal; multiply by the number released for the cohort.
     """
     if grid.currency == "season":
-        out = season_outlook(grid, solution)
+        out = season_outlook(grid, solution) if season is None else season
         return CohortOutlook(grid.season_days, np.asarray(out.expected_kills, dtype=float),
                              np.asarray(out.survival_by_day, dtype=float), None)
     single = cohort_batch(stack_grids([grid]), solution.living_priority(grid)[None],
