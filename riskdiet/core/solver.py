@@ -50,7 +50,7 @@ from riskdiet.core.grid import (
 from riskdiet.core.krylov import bicgstab
 from riskdiet.errors import SolveError
 
-__all__ = ["LinearSolve", "Solution", "solve_breeding", "solve_grid", "solve_season",
+__all__ = ["LinearSolve", "PolicyStep", "Solution", "solve_breeding", "solve_grid", "solve_season",
            "step_values", "transition_matrix"]
 
 MAX_POLICY_ITERATIONS = 500
@@ -178,6 +178,37 @@ class LinearSolve:
 
 
 @dataclass(frozen=True)
+class PolicyStep:
+    """The final policy's one-step chain, as the policy solve built it.
+
+    The kill chain (:func:`riskdiet.core.chain.steady_state`) needs exactly
+    these arrays; keeping them spares building them again.
+
+    Attributes
+    ----------
+    grid : Grid
+        The grid solved (the arrays hold for this grid object only).
+    priority : ndarray of int, shape (2, m, P)
+        The final policy on living states.
+    transitions : csr_matrix, shape (2m, 2m)
+        P among living states (:func:`transition_matrix`).
+    breed : ndarray, shape (2m,)
+        One-step breeding chance.
+    deaths : ndarray, shape (3, 2m)
+        One-step chance of dying by cause (:func:`riskdiet.core.grid.death_chances`).
+    attack_prob : ndarray, shape (2, m, P)
+        P_i under the policy.
+    """
+
+    grid: Grid
+    priority: np.ndarray
+    transitions: sp.csr_matrix
+    breed: np.ndarray
+    deaths: np.ndarray
+    attack_prob: np.ndarray
+
+
+@dataclass(frozen=True)
 class Solution:
     """Optimal policy and fitness of one study (numeric core result).
 
@@ -221,6 +252,8 @@ class Solution:
     linear : LinearSolve or None
         The final policy's linear solver (breeding currency), whose factors
         the kill chain reuses for the rows of the fundamental matrix.
+    step : PolicyStep or None
+        The final policy's one-step chain (breeding currency).
     """
 
     currency: str
@@ -238,6 +271,7 @@ class Solution:
     linear_solver: str = "backward induction"
     complement: np.ndarray | None = None
     linear: LinearSolve | None = dataclasses.field(default=None, repr=False, compare=False)
+    step: PolicyStep | None = dataclasses.field(default=None, repr=False, compare=False)
 
     def living_priority(self, grid: Grid, day: int = 0) -> np.ndarray:
         """Policy restricted to living states, shape (2, m, P)."""
@@ -366,10 +400,10 @@ def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS, *,
         attack_prob = attack_probabilities(grid.encounter_prob, priority)
         parts = outcomes(grid, tg, attack_prob)
         matrix, breed = transition_matrix(grid, parts)
-        death = death_chances(grid, tg, attack_prob, parts).sum(0).reshape(-1)
+        deaths = death_chances(grid, tg, attack_prob, parts).reshape(3, -1)
         lu = LinearSolve((identity - matrix).tocsr(), str(iteration))
         v = lu(breed, v_full[:, 1:top].reshape(-1))
-        u = lu(death, u_full[:, 1:top].reshape(-1))
+        u = lu(deaths.sum(0), u_full[:, 1:top].reshape(-1))
         _check_values(v, u, str(iteration))
         v_full[:, 1:top] = v.reshape(2, m)
         u_full[:, 1:top] = u.reshape(2, m)
@@ -395,7 +429,8 @@ def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS, *,
     marginal = _full_levels(grid, dv, 0.0, 0.0)
     solution = _finish(grid, fitness, complement, _full_levels(grid, priority, -1, -1), marginal,
                        residual, iteration)
-    return dataclasses.replace(solution, linear_solver=lu.method, linear=lu)
+    step = PolicyStep(grid, priority, matrix, breed, deaths, attack_prob)
+    return dataclasses.replace(solution, linear_solver=lu.method, linear=lu, step=step)
 
 
 def solve_season(grid: Grid) -> Solution:

@@ -30,6 +30,7 @@ from hypothesis import strategies as st
 from scipy import stats
 
 from riskdiet.core.chain import (
+    _solver_step,
     absorbing_summary,
     always_absorbed,
     chain_step,
@@ -528,3 +529,20 @@ def test_chain_invariants_on_random_studies(study):
     pi = ss.stationary.ravel()
     assert pi.min() >= 0 and pi.sum() == pytest.approx(1.0, abs=1e-12)
     np.testing.assert_allclose(pi @ reset_chain(grid, step), pi, atol=1e-10)
+
+
+def test_the_solvers_kept_step_is_the_chain_of_its_policy(rich_breeding):
+    """The policy solve keeps its final one-step chain for the kill chain; it must be
+    the chain of the final policy exactly as chain_step builds it (MODEL.md section 5
+    transitions, breeding chance and deaths by cause), and a solution whose policy
+    was replaced afterwards must not use it."""
+    _, grid, solution, _ = rich_breeding
+    kept = solution.step
+    fresh = chain_step(grid, solution.living_priority(grid))
+    assert kept is not None and kept.grid is grid
+    assert (abs(kept.transitions - fresh.transitions)).max() == 0.0
+    np.testing.assert_array_equal(kept.breed, fresh.breed)
+    np.testing.assert_array_equal(kept.deaths, fresh.deaths)
+    replaced = dataclasses.replace(solution, priority=np.zeros_like(solution.priority))
+    assert _solver_step(grid, replaced) is None
+    assert _solver_step(make_grid(rich_predator(), RICH_PREY), solution) is None
