@@ -174,7 +174,7 @@ def _block_moves(grid: Grid, parts: list[Outcome]) -> tuple[sp.csr_matrix, np.nd
 
 def _day_moves(grid: Grid, by_length: dict[int, list[Outcome]]
                ) -> tuple[sp.csr_matrix, np.ndarray, np.ndarray]:
-    """All of a day's moves as one stacked matrix, breeding re-entries included.
+    """Where a day's arrivals come from, as one matrix, breeding re-entries included.
 
     Parameters
     ----------
@@ -185,10 +185,12 @@ def _day_moves(grid: Grid, by_length: dict[int, list[Outcome]]
 
     Returns
     -------
-    stacked : csr_matrix, shape (L_max B S, B S)
-        Block L - 1 (rows (L - 1) B S to L B S - 1) holds the transposed
-        transitions of the steps lasting L days, entry (target, source), with
-        the step's breeding mass moved to the cell's (j_rho, healthy) state.
+    inflow : csr_matrix, shape (B S, L_max B S)
+        Column block L_max - L (columns (L_max - L) B S to (L_max - L + 1) B S
+        - 1) holds the transposed transitions of the steps lasting L days,
+        entry (target, source), with the step's breeding mass moved to the
+        cell's (j_rho, healthy) state. So the mass starting a step on day t is
+        this matrix times the masses of days t - L_max .. t - 1, in that order.
     breed : ndarray, shape (L_max, B S)
         Chance that a step from each state lasts L days and ends in breeding.
     outflow : ndarray, shape (L_max, B S)
@@ -208,13 +210,13 @@ def _day_moves(grid: Grid, by_length: dict[int, list[Outcome]]
         bred = np.flatnonzero(breed[length - 1])
         source = np.concatenate([moves_t.col, bred])
         value = np.concatenate([moves_t.data, breed[length - 1, bred]])
-        rows.append(np.concatenate([moves_t.row, restart[bred]]) + (length - 1) * total)
-        cols.append(source)
+        rows.append(np.concatenate([moves_t.row, restart[bred]]))
+        cols.append(source + (longest - length) * total)
         vals.append(value)
         outflow[length - 1] = np.bincount(source, value, minlength=total)
-    stacked = sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
-                            shape=(longest * total, total))
-    return stacked, breed, outflow
+    inflow = sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                           shape=(total, longest * total))
+    return inflow, breed, outflow
 
 
 def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortBatch:
@@ -242,8 +244,9 @@ def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortB
     being alive on day t adds the mass starting a step on t and the mass in
     the middle of a step it will survive.
 
-    The days are pushed forward with one sparse product each (the transitions
-    of all step lengths stacked, the breeding re-entries folded in); the kills,
+    Each day's arrivals are one sparse product with the masses of the last
+    L_max days (the transitions of all step lengths side by side, the breeding
+    re-entries folded in: :func:`_day_moves`); the kills,
     breeding events and mass in transit are linear in the a_t and are read off
     the stored a_t afterwards, with a few array products over all days.
     """
@@ -260,13 +263,15 @@ def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortB
     attack_prob = attack_probabilities(grid.encounter_prob, np.asarray(priority, dtype=np.intp))
     parts = outcomes(grid, tg, attack_prob)
     kill = kill_probabilities(grid, attack_prob).reshape(batch, size, n_prey)
-    stacked, breed, outflow = _day_moves(grid, _split_by_length(parts, grid.handling))
+    inflow, breed, outflow = _day_moves(grid, _split_by_length(parts, grid.handling))
     longest = breed.shape[0]
-    arrivals = np.zeros((horizon_days + longest + 1, total))
-    arrivals[0, np.arange(batch) * size + grid.start_level - 1] = 1.0
-    for t in range(horizon_days):
-        arrivals[t + 1: t + 1 + longest] += (stacked @ arrivals[t]).reshape(longest, total)
-    started = arrivals[:horizon_days]  # the mass starting a step on days 0..L-1
+    # row longest + t holds day t; the rows before day 0 stay zero
+    days = np.zeros((longest + horizon_days + 1, total))
+    days[longest, np.arange(batch) * size + grid.start_level - 1] = 1.0
+    for row in range(longest + 1, longest + horizon_days + 1):
+        days[row] = inflow @ days[row - longest: row].reshape(-1)
+    arrivals = days[longest:]  # the mass starting a step on days 0..L
+    started = arrivals[:horizon_days]  # ... on days 0..L-1
     kills = np.einsum("bs,bsp->bp", started.sum(0).reshape(batch, size), kill)
     breeding = np.zeros(batch)
     for length in range(1, min(longest, horizon_days) + 1):  # breeding by day L counts
