@@ -4,10 +4,14 @@ Prints median solve times, how solve time grows with the number of energy
 levels, and the speed-up over a plain per-state Python loop of the same
 Bellman step, written the way textbooks code it. The study is invented and
 illustrative (four made-up prey types), not species data. Nothing here is
-asserted by the test suite; timings depend on the machine.
+asserted by the test suite; timings depend on the machine. Times are CPU time
+of this process (``time.process_time``), which a busy machine disturbs less
+than wall-clock time.
 
 Options: ``--repeats N`` (default 11), ``--loop-seconds S`` (default 60; how
-long the plain loop may run before its time to converge is extrapolated).
+long the plain loop may run before its time to converge is extrapolated),
+``--json-only`` (only the plain loop at n = 1000 and the work of ``solve
+--json``, whole and by part).
 """
 
 from __future__ import annotations
@@ -20,9 +24,11 @@ import time
 
 import numpy as np
 
-from riskdiet.analysis.study import solve_scenario
+from riskdiet.analysis.predictions import cohort_kills, steady_state_kills
+from riskdiet.analysis.study import _numbers, grid_check, solve_scenario
 from riskdiet.core import solver
 from riskdiet.core.choice import choice_values, greedy_sets, set_values
+from riskdiet.core.classic import classic_prey_model
 from riskdiet.core.grid import make_grid, targets
 from riskdiet.core.solver import solve_grid
 from riskdiet.validation import build_study
@@ -66,9 +72,9 @@ def median_time(fn, repeats: int) -> float:
     fn()  # warm-up: imports, caches
     times = []
     for _ in range(repeats):
-        t0 = time.perf_counter()
+        t0 = time.process_time()
         fn()
-        times.append(time.perf_counter() - t0)
+        times.append(time.process_time() - t0)
     return statistics.median(times)
 
 
@@ -172,13 +178,13 @@ def loop_to_convergence(grid, target, budget):
     loop = PlainLoop(grid)
     v = [[0.0] * (grid.top + 1) for _ in range(2)]
     v[0][grid.top] = v[1][grid.top] = 1.0
-    errors, start, sweeps = [], time.perf_counter(), 0
+    errors, start, sweeps = [], time.process_time(), 0
     while True:
         v = loop.sweep(v)
         sweeps += 1
         err = float(np.max(np.abs(np.array(v)[:, 1:grid.top] - target[:, 1:grid.top])))
         errors.append(err)
-        elapsed = time.perf_counter() - start
+        elapsed = time.process_time() - start
         if err < TOLERANCE:
             return elapsed / sweeps, sweeps, elapsed, False
         if elapsed > budget and sweeps >= 20:
@@ -194,7 +200,15 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--repeats", type=int, default=11)
     parser.add_argument("--loop-seconds", type=float, default=60.0)
+    parser.add_argument("--json-only", action="store_true",
+                        help="only the plain loop at n = 1000 and the `solve --json` work")
     args = parser.parse_args()
+    if args.json_only:
+        grid = illustrative_study(1000)
+        _, _, loop_1000, _ = loop_to_convergence(grid, solve_grid(grid).fitness,
+                                                 args.loop_seconds)
+        json_work(max(5, args.repeats), loop_1000)
+        return
     print(f"riskdiet solver benchmark  (Python {platform.python_version()}, numpy "
           f"{np.__version__}, {platform.machine()}; median of {args.repeats} runs)")
     print("Study: invented 4-prey example (illustrative), breeding threshold = capacity.\n")
@@ -247,9 +261,9 @@ def main() -> None:
         else:
             days = grid.season_days
             v_full = sol.fitness_by_day[1]
-            t0 = time.perf_counter()
+            t0 = time.process_time()
             loop_v0 = PlainLoop(grid).season(days, sol.fitness_by_day[days, 0])
-            loop_total = time.perf_counter() - t0
+            loop_total = time.process_time() - t0
             per_sweep = loop_total / days
             gap = float(np.max(np.abs(np.array(loop_v0) - sol.fitness)))
             note = f"{days} backward days (exact; max gap to solver {gap:.1e})"
@@ -264,15 +278,45 @@ def main() -> None:
     print("\nloop sweep: one Bellman sweep over all states, scalar Python; numpy step: "
           "solver.step_values + ranking + attack probabilities; solve: whole exact solve.")
 
-    # everything `riskdiet solve --json` computes for a scenario: policy, marginal value,
-    # long-run kills and lifetimes, the released cohort over 365 days, the classic model
-    # and the grid check (a second solve at n/2)
+    json_work(max(5, args.repeats), loop_1000)
+
+
+def json_parts(repeats: int) -> dict[str, float]:
+    """Median seconds of each part of `solve --json` for one scenario (n = 1000)."""
     study = build_study(illustrative_raw(1000))
-    t_whole = median_time(lambda: solve_scenario(study, study.scenarios[0]),
-                          max(3, args.repeats // 2))
+    scenario = study.scenarios[0]
+    predator, prey = study.inputs_for(scenario)
+    horizon = study.settings.horizon_days
+    grid = make_grid(predator, prey)
+    sol = solve_grid(grid)
+    numbers = _numbers(predator, prey, horizon)
+    classic = (lambda p=prey, r=predator, g=grid: classic_prey_model(
+        [x.name for x in p], [x.encounters(r) for x in p], [x.energy_mj for x in p],
+        [x.handling_days for x in p], g.capture[0], [x.fatality_chance for x in p],
+        r.background_mortality, r.effective_daily_cost_mj))
+    parts = {
+        "whole": lambda: solve_scenario(study, scenario),
+        "policy solve": lambda: solve_grid(grid),
+        "long-run kills": lambda: steady_state_kills(predator, prey, grid, sol),
+        "cohort 365 d": lambda: cohort_kills(predator, prey, grid, sol, horizon),
+        "classic": classic,
+        "grid check": lambda: grid_check(predator, prey, horizon, numbers),
+    }
+    return {name: median_time(fn, repeats) for name, fn in parts.items()}
+
+
+def json_work(repeats: int, loop_1000: float) -> None:
+    """Everything `riskdiet solve --json` computes for a scenario: policy, marginal value,
+    long-run kills and lifetimes, the released cohort over 365 days, the classic model
+    and the grid check (a second solve at n/2), whole and by part."""
+    times = json_parts(repeats)
+    t_whole = times.pop("whole")
+    rest = t_whole - sum(times.values())
     print(f"\nWhole scenario as `solve --json` computes it, n = 1000, 4 prey, injuries: "
           f"{_ms(t_whole)}; the plain loop's policy solve alone takes {loop_1000:.2f} s: "
           f"{loop_1000 / t_whole:.0f}x (target >= 20x)")
+    print("  by part: " + ", ".join(f"{name} {_ms(t)}" for name, t in times.items())
+          + f", the rest (names, results) {_ms(rest)}")
 
 
 def _ms(seconds: float) -> str:

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.core.chain import season_outlook, steady_state
+from riskdiet.core.chain import SeasonOutlook, kill_rates, season_outlook, steady_state
 from riskdiet.core.cohort import released_cohort
 from riskdiet.core.grid import Grid
 from riskdiet.core.solver import Solution
@@ -175,9 +175,10 @@ def steady_state_kills(predator: Predator, prey: tuple[Prey, ...], grid: Grid,
 
 
 def season_kills(predator: Predator, prey: tuple[Prey, ...], grid: Grid,
-                 solution: Solution) -> SeasonKills:
-    """Named season kill predictions (season currency)."""
-    out = season_outlook(grid, solution)
+                 solution: Solution, outlook: SeasonOutlook | None = None) -> SeasonKills:
+    """Named season kill predictions (season currency); ``outlook`` is the season's
+    propagation when already computed."""
+    out = season_outlook(grid, solution) if outlook is None else outlook
     names = [p.name for p in prey]
     kills = np.asarray(out.expected_kills, dtype=float)
     population = kills * predator.population
@@ -240,9 +241,10 @@ class CohortKills:
 
 
 def cohort_kills(predator: Predator, prey: tuple[Prey, ...], grid: Grid, solution: Solution,
-                 horizon_days: int) -> CohortKills:
-    """Named predictions for the released cohort (MODEL.md section 5)."""
-    out = released_cohort(grid, solution, horizon_days)
+                 horizon_days: int, outlook: SeasonOutlook | None = None) -> CohortKills:
+    """Named predictions for the released cohort (MODEL.md section 5); in the season
+    currency ``outlook`` is the season's propagation when already computed."""
+    out = released_cohort(grid, solution, horizon_days, outlook)
     animals = predator.cohort_size
     kills = animals * np.asarray(out.kills, dtype=float)
     return CohortKills(
@@ -256,3 +258,12 @@ def cohort_kills(predator: Predator, prey: tuple[Prey, ...], grid: Grid, solutio
         median_survival_days=out.median_survival_days,
         survival_by_day=[float(v) for v in out.alive_by_day],
     )
+
+
+def kills_per_year(prey: tuple[Prey, ...], grid: Grid, solution: Solution
+                   ) -> tuple[dict[str, float], dict[str, float]]:
+    """Long-run kills per predator per year by prey and by group, and nothing else
+    (breeding currency; what the grid check compares, MODEL.md section 8). Equal to
+    ``kills_per_predator_per_year`` and its ``_by_group`` of :func:`steady_state_kills`."""
+    per_year = DAYS_PER_YEAR * np.asarray(kill_rates(grid, solution), dtype=float)
+    return _named([p.name for p in prey], per_year), _by_group(prey, per_year)

@@ -26,14 +26,16 @@ from riskdiet.analysis.predictions import (
     SeasonKills,
     SteadyStateKills,
     cohort_kills,
+    kills_per_year,
     season_kills,
     steady_state_kills,
 )
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult, policy_names
 from riskdiet.analysis.verdict import verdict
+from riskdiet.core.chain import season_outlook
 from riskdiet.core.classic import classic_prey_model
 from riskdiet.core.grid import Grid, make_grid
-from riskdiet.core.solver import Solution, solve_grid
+from riskdiet.core.solver import Solution, solve_breeding, solve_grid, solve_season
 from riskdiet.errors import SolveError
 from riskdiet.model import Predator, Prey, Scenario, Study
 
@@ -57,20 +59,53 @@ class _Numbers:
 def _numbers(predator: Predator, prey: tuple[Prey, ...], horizon_days: int) -> _Numbers:
     grid = make_grid(predator, prey)
     solution = solve_grid(grid)
+    outlook = None
     if grid.currency == "breeding":
         kills, season = steady_state_kills(predator, prey, grid, solution), None
     else:
-        kills, season = None, season_kills(predator, prey, grid, solution)
-    cohort = cohort_kills(predator, prey, grid, solution, horizon_days)
+        outlook = season_outlook(grid, solution)  # one propagation for both uses
+        kills, season = None, season_kills(predator, prey, grid, solution, outlook)
+    cohort = cohort_kills(predator, prey, grid, solution, horizon_days, outlook)
     return _Numbers(grid, solution, kills, season, cohort)
 
 
-def _long_run(numbers: _Numbers) -> tuple[dict[str, float], dict[str, float]]:
-    """Long-run kills per predator per year (season: per season), by prey and group."""
+@dataclass(frozen=True)
+class _Compared:
+    """The numbers the grid check compares (MODEL.md section 8), at one grid."""
+
+    fitness_at_start: float
+    kills: dict[str, float]
+    kills_by_group: dict[str, float]
+    cohort: dict[str, float]
+    cohort_by_group: dict[str, float]
+
+
+def _compared(numbers: _Numbers) -> _Compared:
+    """The compared numbers read off the full results at n levels."""
     if numbers.kills is not None:
-        return (numbers.kills.kills_per_predator_per_year,
-                numbers.kills.kills_per_predator_per_year_by_group)
-    return numbers.season.expected_kills, numbers.season.expected_kills_by_group
+        kills = (numbers.kills.kills_per_predator_per_year,
+                 numbers.kills.kills_per_predator_per_year_by_group)
+    else:
+        kills = numbers.season.expected_kills, numbers.season.expected_kills_by_group
+    return _Compared(numbers.solution.fitness_at_start, *kills, numbers.cohort.kills,
+                     numbers.cohort.kills_by_group)
+
+
+def _check_numbers(predator: Predator, prey: tuple[Prey, ...], horizon_days: int) -> _Compared:
+    """Only the compared numbers, at the check's levels: no marginal value, no
+    lifetimes or causes of death, no classic model (MODEL.md section 8)."""
+    grid = make_grid(predator, prey)
+    outlook = None
+    if grid.currency == "breeding":
+        solution = solve_breeding(grid, marginal=False)
+        kills = kills_per_year(prey, grid, solution)
+    else:
+        solution = solve_season(grid)
+        outlook = season_outlook(grid, solution)
+        season = season_kills(predator, prey, grid, solution, outlook)
+        kills = season.expected_kills, season.expected_kills_by_group
+    cohort = cohort_kills(predator, prey, grid, solution, horizon_days, outlook)
+    return _Compared(solution.fitness_at_start, *kills, cohort.kills, cohort.kills_by_group)
 
 
 def grid_check(predator: Predator, prey: tuple[Prey, ...], horizon_days: int,
@@ -82,17 +117,23 @@ def grid_check(predator: Predator, prey: tuple[Prey, ...], horizon_days: int,
         return not_possible(n, "grid check not possible: the breeding level would be below 2 "
                             "on the check's grid")
     try:
-        other = _numbers(coarse, prey, horizon_days)
+        other = _check_numbers(coarse, prey, horizon_days)
     except SolveError as err:
         return not_possible(n, f"the solve on the check's grid failed: {err.reason}")
-    k_other, g_other = _long_run(other)
-    k_fine, g_fine = _long_run(fine)
+    at_n = _compared(fine)
     return compare_grids(
         (coarse.energy_levels, n),
-        (other.solution.fitness_at_start, fine.solution.fitness_at_start),
-        (k_other, k_fine), (g_other, g_fine),
-        (other.cohort.kills, fine.cohort.kills),
-        (other.cohort.kills_by_group, fine.cohort.kills_by_group))
+        (other.fitness_at_start, at_n.fitness_at_start),
+        (other.kills, at_n.kills), (other.kills_by_group, at_n.kills_by_group),
+        (other.cohort, at_n.cohort), (other.cohort_by_group, at_n.cohort_by_group))
+
+
+def _policy_names(priority: np.ndarray, names: list[str]) -> list[list[str]]:
+    """Ranked prey names per level; the attack set repeats over long runs of levels,
+    so each distinct row is named once."""
+    rows, which = np.unique(priority, axis=0, return_inverse=True)
+    named = policy_names(rows, names)
+    return [list(named[i]) for i in which.reshape(-1)]
 
 
 def viability(currency: str, fitness_at_start: float, cohort: CohortKills) -> str | None:
@@ -148,7 +189,7 @@ def solve_scenario(study: Study, scenario: Scenario) -> ScenarioResult:
         reserves_mj=reserves,
         fitness={c: solution.fitness[k] for k, c in enumerate(CONDITIONS)},
         fitness_at_start=solution.fitness_at_start,
-        policy={c: policy_names(solution.priority[k], names) for k, c in enumerate(CONDITIONS)},
+        policy={c: _policy_names(solution.priority[k], names) for k, c in enumerate(CONDITIONS)},
         marginal_hunting_ability=solution.marginal_hunting_ability,
         elasticity=solution.elasticity,
         residual=solution.residual,

@@ -345,6 +345,27 @@ class SteadyState:
     lifetime_note: str | None = None
 
 
+def _solver_step(grid: Grid, solution: Solution) -> ChainStep | None:
+    """The policy solve's own chain step, when the solution is this grid's and its
+    policy has not been replaced since (None otherwise: build it with :func:`chain_step`)."""
+    kept = solution.step
+    if (kept is None or kept.grid is not grid or solution.linear is None
+            or not np.array_equal(solution.living_priority(grid), kept.priority)):
+        return None
+    kill = kill_probabilities(grid, kept.attack_prob).reshape(-1, grid.n_prey)
+    return ChainStep(kept.transitions, kept.breed, kept.deaths, kill, 1.0 + kill @ grid.handling)
+
+
+def _step_and_system(grid: Grid, solution: Solution) -> tuple[ChainStep, bool]:
+    """The chain's step under the solution's policy, and whether the solution's linear
+    solver holds exactly its I - P (always when the step is the solver's own)."""
+    step = _solver_step(grid, solution)
+    if step is not None:
+        return step, True
+    step = chain_step(grid, solution.living_priority(grid))
+    return step, _same_system(solution, step)
+
+
 def _same_system(solution: Solution, step: ChainStep) -> bool:
     """Whether the solution's linear solver holds exactly this chain's I - P."""
     linear = solution.linear
@@ -401,7 +422,7 @@ def steady_state(grid: Grid, solution: Solution) -> SteadyState:
     if grid.currency != "breeding":
         raise RiskdietError(f"steady_state needs the breeding currency, found {grid.currency!r}")
     m, size = grid.n_living, 2 * grid.n_living
-    step = chain_step(grid, solution.living_priority(grid))
+    step, same_system = _step_and_system(grid, solution)
     start = grid.start_level - 1
     restart = grid.after_breeding_level - 1
     death = step.deaths.sum(0)
@@ -410,7 +431,7 @@ def steady_state(grid: Grid, solution: Solution) -> SteadyState:
     never_dies = (solution.complement is not None
                   and solution.complement[0, grid.after_breeding_level] < NEVER_DIES)
     note = NEVER_DIES_NOTE if never_dies else None
-    if _same_system(solution, step):
+    if same_system:
         # rows of (I - P)^-1 from the policy solve's own factors: two transposed solves
         unit = np.zeros(size)
         unit[start] = 1.0
@@ -463,6 +484,46 @@ def steady_state(grid: Grid, solution: Solution) -> SteadyState:
         days_per_step=step.days.reshape(2, m),
         lifetime_note=note,
     )
+
+
+def kill_rates(grid: Grid, solution: Solution) -> np.ndarray:
+    """Long-run kills per predator per day, K_i, and nothing else.
+
+    Parameters
+    ----------
+    grid : Grid
+        Discretised study, breeding currency.
+    solution : Solution
+        Its optimal policy (:func:`riskdiet.core.solver.solve_breeding`).
+
+    Returns
+    -------
+    ndarray, shape (P,)
+        :attr:`SteadyState.kills_per_day` [1/day].
+
+    Notes
+    -----
+    The grid check compares only these rates (MODEL.md section 8). The
+    lineage's expected visits are a fixed combination of two rows of
+    (I - P)^-1 (:func:`steady_state`, Sherman-Morrison for the breeding
+    reset), so by linearity they take one transposed solve with the combined
+    right-hand side e_j0 + (V(j0) / U(j_rho)) e_rho instead of two.
+    """
+    if grid.currency != "breeding":
+        raise RiskdietError(f"kill_rates needs the breeding currency, found {grid.currency!r}")
+    step, same_system = _step_and_system(grid, solution)
+    if not same_system:
+        return steady_state(grid, solution).kills_per_day
+    unit = np.zeros(2 * grid.n_living)
+    restart = grid.after_breeding_level - 1
+    u_restart = solution.complement[0, grid.after_breeding_level]
+    if u_restart < NEVER_DIES:
+        unit[restart] = 1.0
+    else:
+        unit[grid.start_level - 1] = 1.0
+        unit[restart] += solution.fitness[0, grid.start_level] / u_restart
+    pi = _distribution(solution.linear.transposed(unit))
+    return pi @ step.kill_prob / float(pi @ step.days)
 
 
 # ---------------------------------------------------------------------------

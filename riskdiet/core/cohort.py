@@ -40,7 +40,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 
-from riskdiet.core.chain import season_outlook
+from riskdiet.core.chain import SeasonOutlook, season_outlook
 from riskdiet.core.grid import (
     Grid,
     Outcome,
@@ -172,6 +172,53 @@ def _block_moves(grid: Grid, parts: list[Outcome]) -> tuple[sp.csr_matrix, np.nd
     return moves_t, breed
 
 
+def _day_moves(grid: Grid, by_length: dict[int, list[Outcome]]
+               ) -> tuple[sp.csr_matrix, np.ndarray, np.ndarray]:
+    """Where a day's arrivals come from, as one matrix, breeding re-entries included.
+
+    Parameters
+    ----------
+    grid : Grid
+        A stacked grid, breeding currency.
+    by_length : dict of int to list of Outcome
+        The step's outcomes by step length (:func:`_split_by_length`).
+
+    Returns
+    -------
+    inflow : csr_matrix, shape (B S, L_max B S)
+        Column block L_max - L (columns (L_max - L) B S to (L_max - L + 1) B S
+        - 1) holds the transposed transitions of the steps lasting L days,
+        entry (target, source), with the step's breeding mass moved to the
+        cell's (j_rho, healthy) state. So the mass starting a step on day t is
+        this matrix times the masses of days t - L_max .. t - 1, in that order.
+    breed : ndarray, shape (L_max, B S)
+        Chance that a step from each state lasts L days and ends in breeding.
+    outflow : ndarray, shape (L_max, B S)
+        Chance that a step from each state lasts L days and is survived (the
+        column sums of block L - 1).
+    """
+    batch, size = grid.cost.shape[0], 2 * grid.n_living
+    total = batch * size
+    longest = max(by_length)
+    restart = np.repeat(np.arange(batch) * size + grid.after_breeding_level - 1, size)
+    rows, cols, vals = [], [], []
+    breed = np.zeros((longest, total))
+    outflow = np.zeros((longest, total))
+    for length, group in by_length.items():
+        moves_t, breed[length - 1] = _block_moves(grid, group)
+        moves_t = moves_t.tocoo()
+        bred = np.flatnonzero(breed[length - 1])
+        source = np.concatenate([moves_t.col, bred])
+        value = np.concatenate([moves_t.data, breed[length - 1, bred]])
+        rows.append(np.concatenate([moves_t.row, restart[bred]]))
+        cols.append(source + (longest - length) * total)
+        vals.append(value)
+        outflow[length - 1] = np.bincount(source, value, minlength=total)
+    inflow = sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                           shape=(total, longest * total))
+    return inflow, breed, outflow
+
+
 def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortBatch:
     """Forward propagation of one released animal per cell, over the planning horizon.
 
@@ -196,6 +243,12 @@ def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortB
     mass of a step re-enters at (j_rho, healthy) on its end day. The chance of
     being alive on day t adds the mass starting a step on t and the mass in
     the middle of a step it will survive.
+
+    Each day's arrivals are one sparse product with the masses of the last
+    L_max days (the transitions of all step lengths side by side, the breeding
+    re-entries folded in: :func:`_day_moves`); the kills,
+    breeding events and mass in transit are linear in the a_t and are read off
+    the stored a_t afterwards, with a few array products over all days.
     """
     if grid.currency != "breeding":
         raise RiskdietError("cohort_batch covers the breeding currency; the season currency "
@@ -205,36 +258,35 @@ def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortB
     batch = grid.cost.shape[0]
     m, n_prey = grid.n_living, grid.n_prey
     size = 2 * m
+    total = batch * size
     tg = targets(grid)
     attack_prob = attack_probabilities(grid.encounter_prob, np.asarray(priority, dtype=np.intp))
     parts = outcomes(grid, tg, attack_prob)
     kill = kill_probabilities(grid, attack_prob).reshape(batch, size, n_prey)
-    moves = [(length, *_block_moves(grid, group))
-             for length, group in sorted(_split_by_length(parts, grid.handling).items())]
-    longest = max(length for length, _, _ in moves)
-    offset = np.arange(batch) * size
-    restart = offset + grid.after_breeding_level - 1
-    arrivals = np.zeros((horizon_days + longest + 1, batch * size))
-    arrivals[0, offset + grid.start_level - 1] = 1.0
-    transit = np.zeros((horizon_days + longest + 2, batch))  # mass mid-step, difference array
-    kills = np.zeros((batch, n_prey))
+    inflow, breed, outflow = _day_moves(grid, _split_by_length(parts, grid.handling))
+    longest = breed.shape[0]
+    # row longest + t holds day t; the rows before day 0 stay zero
+    days = np.zeros((longest + horizon_days + 1, total))
+    days[longest, np.arange(batch) * size + grid.start_level - 1] = 1.0
+    for row in range(longest + 1, longest + horizon_days + 1):
+        days[row] = inflow @ days[row - longest: row].reshape(-1)
+    arrivals = days[longest:]  # the mass starting a step on days 0..L
+    started = arrivals[:horizon_days]  # ... on days 0..L-1
+    kills = np.einsum("bs,bsp->bp", started.sum(0).reshape(batch, size), kill)
     breeding = np.zeros(batch)
-    for t in range(horizon_days):
-        mass = arrivals[t]
-        kills += np.einsum("bs,bsp->bp", mass.reshape(batch, size), kill)
-        for length, moves_t, breed in moves:
-            end = t + length
-            flow = moves_t @ mass
-            bred = (breed * mass).reshape(batch, size).sum(1)
-            arrivals[end] += flow
-            arrivals[end, restart] += bred
-            if end <= horizon_days:
-                breeding += bred
-            if length > 1:
-                moved = flow.reshape(batch, size).sum(1) + bred
-                transit[t + 1] += moved
-                transit[end] -= moved
-    in_transit = np.cumsum(transit, axis=0)[: horizon_days + 1]
+    for length in range(1, min(longest, horizon_days) + 1):  # breeding by day L counts
+        ends_in_time = arrivals[: horizon_days - length + 1].sum(0)
+        breeding += (ends_in_time * breed[length - 1]).reshape(batch, size).sum(1)
+    # mass in the middle of a step it survives: a step of L days started on day t is in
+    # transit on days t + 1 .. t + L - 1; summed window by window (all terms >= 0, so the
+    # small survival near the horizon keeps its relative precision)
+    in_transit = np.zeros((horizon_days + 1, batch))
+    if longest > 1:
+        moved = np.einsum("tbs,lbs->ltb", started.reshape(horizon_days, batch, size),
+                          outflow.reshape(longest, batch, size))
+        for length in range(2, longest + 1):
+            for k in range(1, length):
+                in_transit[k:] += moved[length - 1, : horizon_days + 1 - k]
     alive = arrivals[: horizon_days + 1].reshape(horizon_days + 1, batch, size).sum(2)
     alive = np.clip((alive + in_transit).T, 0.0, 1.0)  # rounding only: mass never exceeds one
     if not (np.all(np.isfinite(alive)) and np.all(np.isfinite(kills))
@@ -243,7 +295,8 @@ def cohort_batch(grid: Grid, priority: np.ndarray, horizon_days: int) -> CohortB
     return CohortBatch(horizon_days, kills, alive, breeding)
 
 
-def released_cohort(grid: Grid, solution: Solution, horizon_days: int) -> CohortOutlook:
+def released_cohort(grid: Grid, solution: Solution, horizon_days: int,
+                    season: SeasonOutlook | None = None) -> CohortOutlook:
     """Forward propagation of one released animal over the planning horizon.
 
     Parameters
@@ -254,6 +307,10 @@ def released_cohort(grid: Grid, solution: Solution, horizon_days: int) -> Cohort
         Its optimal policy (:func:`riskdiet.core.solver.solve_grid`).
     horizon_days : int
         L [day]; ignored in the season currency, whose horizon is the season.
+    season : SeasonOutlook, optional
+        Season currency: the season's propagation when already computed
+        (:func:`riskdiet.core.chain.season_outlook` of the same grid and
+        solution), so that it is not computed twice.
 
     Returns
     -------
@@ -261,7 +318,7 @@ def released_cohort(grid: Grid, solution: Solution, horizon_days: int) -> Cohort
         Per released animal; multiply by the number released for the cohort.
     """
     if grid.currency == "season":
-        out = season_outlook(grid, solution)
+        out = season_outlook(grid, solution) if season is None else season
         return CohortOutlook(grid.season_days, np.asarray(out.expected_kills, dtype=float),
                              np.asarray(out.survival_by_day, dtype=float), None)
     single = cohort_batch(stack_grids([grid]), solution.living_priority(grid)[None],

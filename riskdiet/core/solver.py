@@ -29,7 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.sparse.linalg import bicgstab, splu
+from scipy.sparse.linalg import splu
 
 from riskdiet.core.choice import (
     choice_values,
@@ -47,9 +47,10 @@ from riskdiet.core.grid import (
     outcomes,
     targets,
 )
+from riskdiet.core.krylov import bicgstab
 from riskdiet.errors import SolveError
 
-__all__ = ["LinearSolve", "Solution", "solve_breeding", "solve_grid", "solve_season",
+__all__ = ["LinearSolve", "PolicyStep", "Solution", "solve_breeding", "solve_grid", "solve_season",
            "step_values", "transition_matrix"]
 
 MAX_POLICY_ITERATIONS = 500
@@ -96,6 +97,7 @@ class LinearSolve:
         self.matrix = matrix
         self.label = label
         self.lu = None
+        self.matrix_t = None
         self.method = "sparse LU"
         if factorise and matrix.shape[0] <= DIRECT_LIMIT:
             self.lu = _factorise(matrix, label)
@@ -116,9 +118,8 @@ class LinearSolve:
         which floating point computes to each state's own precision, so small
         values (tiny chances of dying) gain relative accuracy round by round.
         """
-        x, info = bicgstab(matrix, rhs, x0=guess, rtol=SOLVE_TOLERANCE * 0.1, atol=0.0,
-                           maxiter=20 * matrix.shape[0])
-        if info != 0:
+        x, converged = bicgstab(matrix, rhs, guess, rtol=SOLVE_TOLERANCE * 0.1)
+        if not converged:
             return None
         check = LinearSolve(matrix, self.label, factorise=False)
         for _ in range(REFINEMENTS):
@@ -129,8 +130,7 @@ class LinearSolve:
                 break
             # a breakdown on a tiny residual still returns a usable correction; the
             # per-state test below decides whether the answer is accepted
-            delta, _ = bicgstab(matrix, residual, rtol=SOLVE_TOLERANCE * 0.1, atol=0.0,
-                                maxiter=20 * matrix.shape[0])
+            delta, _ = bicgstab(matrix, residual, rtol=SOLVE_TOLERANCE * 0.1)
             if not np.all(np.isfinite(delta)):
                 return None
             x = x + delta
@@ -160,12 +160,13 @@ class LinearSolve:
         if self.lu is None:
             # expected visits need accuracy relative to the largest (kill rates to 1e-10),
             # not per state: unreachable states are exact zeros an iteration only nears
-            matrix_t = self.matrix.T.tocsr()
+            if self.matrix_t is None:
+                self.matrix_t = self.matrix.T.tocsr()
+            matrix_t = self.matrix_t
             # started from b itself: from zero, a unit right-hand side breaks BiCGSTAB down
-            x, info = bicgstab(matrix_t, rhs, x0=rhs.copy(), rtol=SOLVE_TOLERANCE * 0.1,
-                               atol=0.0, maxiter=20 * self.matrix.shape[0])
+            x, converged = bicgstab(matrix_t, rhs, rhs, rtol=SOLVE_TOLERANCE * 0.1)
             scale = max(float(np.abs(x).max(initial=0.0)), float(np.abs(rhs).max()))
-            if (info == 0 and np.all(np.isfinite(x))
+            if (converged and np.all(np.isfinite(x))
                     and np.abs(matrix_t @ x - rhs).max() <= SOLVE_TOLERANCE * scale):
                 return x
             self.lu = _factorise(self.matrix, self.label)
@@ -174,6 +175,37 @@ class LinearSolve:
         if not np.all(np.isfinite(x)):
             raise SolveError(SINGULAR.format(round=self.label))
         return x
+
+
+@dataclass(frozen=True)
+class PolicyStep:
+    """The final policy's one-step chain, as the policy solve built it.
+
+    The kill chain (:func:`riskdiet.core.chain.steady_state`) needs exactly
+    these arrays; keeping them spares building them again.
+
+    Attributes
+    ----------
+    grid : Grid
+        The grid solved (the arrays hold for this grid object only).
+    priority : ndarray of int, shape (2, m, P)
+        The final policy on living states.
+    transitions : csr_matrix, shape (2m, 2m)
+        P among living states (:func:`transition_matrix`).
+    breed : ndarray, shape (2m,)
+        One-step breeding chance.
+    deaths : ndarray, shape (3, 2m)
+        One-step chance of dying by cause (:func:`riskdiet.core.grid.death_chances`).
+    attack_prob : ndarray, shape (2, m, P)
+        P_i under the policy.
+    """
+
+    grid: Grid
+    priority: np.ndarray
+    transitions: sp.csr_matrix
+    breed: np.ndarray
+    deaths: np.ndarray
+    attack_prob: np.ndarray
 
 
 @dataclass(frozen=True)
@@ -220,6 +252,8 @@ class Solution:
     linear : LinearSolve or None
         The final policy's linear solver (breeding currency), whose factors
         the kill chain reuses for the rows of the fundamental matrix.
+    step : PolicyStep or None
+        The final policy's one-step chain (breeding currency).
     """
 
     currency: str
@@ -237,6 +271,7 @@ class Solution:
     linear_solver: str = "backward induction"
     complement: np.ndarray | None = None
     linear: LinearSolve | None = dataclasses.field(default=None, repr=False, compare=False)
+    step: PolicyStep | None = dataclasses.field(default=None, repr=False, compare=False)
 
     def living_priority(self, grid: Grid, day: int = 0) -> np.ndarray:
         """Policy restricted to living states, shape (2, m, P)."""
@@ -307,7 +342,8 @@ def _check_residual(residual: float) -> None:
                          f"values is {residual:.1e}, above the accepted {RESIDUAL_LIMIT:.0e}")
 
 
-def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS) -> Solution:
+def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS, *,
+                   marginal: bool = True) -> Solution:
     """Probability of reaching breeding condition before dying, and its policy.
 
     Parameters
@@ -316,6 +352,11 @@ def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS) -> S
         Discretised study (breeding currency).
     max_iterations : int
         Limit on policy-iteration rounds; reaching it is an error.
+    marginal : bool
+        Compute the marginal value of hunting ability (one more linear
+        solve). The grid check, which compares other numbers only, leaves it
+        out; the marginal fields are then NaN, meaning "not computed", and
+        such a solution is never shown.
 
     Returns
     -------
@@ -359,10 +400,10 @@ def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS) -> S
         attack_prob = attack_probabilities(grid.encounter_prob, priority)
         parts = outcomes(grid, tg, attack_prob)
         matrix, breed = transition_matrix(grid, parts)
-        death = death_chances(grid, tg, attack_prob, parts).sum(0).reshape(-1)
+        deaths = death_chances(grid, tg, attack_prob, parts).reshape(3, -1)
         lu = LinearSolve((identity - matrix).tocsr(), str(iteration))
         v = lu(breed, v_full[:, 1:top].reshape(-1))
-        u = lu(death, u_full[:, 1:top].reshape(-1))
+        u = lu(deaths.sum(0), u_full[:, 1:top].reshape(-1))
         _check_values(v, u, str(iteration))
         v_full[:, 1:top] = v.reshape(2, m)
         u_full[:, 1:top] = u.reshape(2, m)
@@ -376,16 +417,20 @@ def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS) -> S
         raise SolveError(f"policy iteration did not settle within {max_iterations} rounds")
     residual = float(relative_residual(grid, cv, v_full[:, 1:top], u_full[:, 1:top]).max())
     _check_residual(residual)
-    # envelope theorem: derivative of the one-step value at fixed V and policy
-    alive = (1.0 - grid.mortality)[:, None]
-    direct = alive * (attack_prob * cv.d_attack * grid.capture_slope[:, None, :]).sum(-1)
-    dv = lu(direct.reshape(-1)).reshape(2, m)
+    if marginal:
+        # envelope theorem: derivative of the one-step value at fixed V and policy
+        alive = (1.0 - grid.mortality)[:, None]
+        direct = alive * (attack_prob * cv.d_attack * grid.capture_slope[:, None, :]).sum(-1)
+        dv = lu(direct.reshape(-1)).reshape(2, m)
+    else:
+        dv = np.full((2, m), np.nan)
     fitness = _full_levels(grid, v_full[:, 1:top], 0.0, 1.0)
     complement = _full_levels(grid, u_full[:, 1:top], 1.0, 0.0)
     marginal = _full_levels(grid, dv, 0.0, 0.0)
     solution = _finish(grid, fitness, complement, _full_levels(grid, priority, -1, -1), marginal,
                        residual, iteration)
-    return dataclasses.replace(solution, linear_solver=lu.method, linear=lu)
+    step = PolicyStep(grid, priority, matrix, breed, deaths, attack_prob)
+    return dataclasses.replace(solution, linear_solver=lu.method, linear=lu, step=step)
 
 
 def solve_season(grid: Grid) -> Solution:

@@ -30,9 +30,11 @@ from hypothesis import strategies as st
 from scipy import stats
 
 from riskdiet.core.chain import (
+    _solver_step,
     absorbing_summary,
     always_absorbed,
     chain_step,
+    kill_rates,
     season_outlook,
     steady_state,
 )
@@ -335,6 +337,41 @@ def test_stationary_solves_the_balance_equations(rich_breeding):
         ss.expected_breeding_events / ss.expected_lifetime_days, rel=1e-10)
 
 
+@pytest.mark.parametrize("levels", [30, 240])
+def test_kill_rates_alone_match_the_balance_equations(levels):
+    """K_i = pi P(kill i | .) / pi E[days | .] with pi the solution of pi M = pi,
+    sum pi = 1 for the chain with both resets (Kemeny & Snell 1960), pi computed
+    here as scipy's null space of M^T - I; riskdiet's one-solve shortcut for the
+    grid check must give the same rates as the steady state, with the policy
+    solve's sparse LU (30 levels) and with its BiCGSTAB (240 levels)."""
+    grid = make_grid(rich_predator(energy_levels=levels), RICH_PREY)
+    solution = solve_grid(grid)
+    step = chain_step(grid, solution.living_priority(grid))
+    full = reset_chain(grid, step)
+    basis = scipy.linalg.null_space(full.T - np.eye(full.shape[0]))
+    assert basis.shape[1] == 1
+    pi = basis[:, 0] / basis[:, 0].sum()
+    reference = pi @ step.kill_prob / (pi @ step.days)
+    rates = kill_rates(grid, solution)
+    np.testing.assert_allclose(rates, reference, rtol=1e-10)
+    np.testing.assert_allclose(rates, steady_state(grid, solution).kills_per_day, rtol=1e-13)
+
+
+def test_kill_rates_of_an_immortal_lineage_are_its_cycle():
+    """The predator of the immortal-lineage test above, solved as it is (it
+    attacks its sure prey everywhere), never dies: the long run is the 3-step
+    cycle 5, 7, 9 with one kill a day (brute-force enumeration of the
+    deterministic path)."""
+    predator = Predator(reserve_capacity_mj=10.0, energy_levels=10, daily_cost_mj=1.0,
+                        start_reserves=0.5, reserves_after_breeding=0.5)
+    prey = Prey(name="sure prey", energy_mj=3.0, capture_success=1.0, encounters_per_day=50.0,
+                skill_dependent=False)
+    grid = make_grid(predator, (prey,))
+    solution = solve_grid(grid)
+    assert solution.complement[0, grid.after_breeding_level] < 1e-9
+    np.testing.assert_allclose(kill_rates(grid, solution), [1.0], atol=1e-14)
+
+
 def test_kill_probabilities_follow_model_formula(rich_breeding):
     """P(kill i | s) = (1 - mu_k) P_i (1 - f_i) s_i^k with P_i the chance that i
     is the best prey met (MODEL.md sections 3 and 5), recomputed here by
@@ -492,3 +529,20 @@ def test_chain_invariants_on_random_studies(study):
     pi = ss.stationary.ravel()
     assert pi.min() >= 0 and pi.sum() == pytest.approx(1.0, abs=1e-12)
     np.testing.assert_allclose(pi @ reset_chain(grid, step), pi, atol=1e-10)
+
+
+def test_the_solvers_kept_step_is_the_chain_of_its_policy(rich_breeding):
+    """The policy solve keeps its final one-step chain for the kill chain; it must be
+    the chain of the final policy exactly as chain_step builds it (MODEL.md section 5
+    transitions, breeding chance and deaths by cause), and a solution whose policy
+    was replaced afterwards must not use it."""
+    _, grid, solution, _ = rich_breeding
+    kept = solution.step
+    fresh = chain_step(grid, solution.living_priority(grid))
+    assert kept is not None and kept.grid is grid
+    assert (abs(kept.transitions - fresh.transitions)).max() == 0.0
+    np.testing.assert_array_equal(kept.breed, fresh.breed)
+    np.testing.assert_array_equal(kept.deaths, fresh.deaths)
+    replaced = dataclasses.replace(solution, priority=np.zeros_like(solution.priority))
+    assert _solver_step(grid, replaced) is None
+    assert _solver_step(make_grid(rich_predator(), RICH_PREY), solution) is None

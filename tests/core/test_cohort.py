@@ -94,6 +94,57 @@ def test_walk_cohort_kills_are_captures_made_by_the_living():
     assert out.kills[0] == pytest.approx(0.6 * reference[:-1].sum(), rel=1e-10)
 
 
+def slow_walk_reference(up: float, mortality: float, start: int, days: int
+                       ) -> tuple[np.ndarray, float]:
+    """S(t), t = 0..days, and the captures started on days 0..days-1 of a walk
+    whose captures take 3.5 days and gain 2 levels, other steps 1 day and lose 2
+    levels, with a chance ``mortality`` of dying at the start of each step and
+    (1 - mortality)^2.5 of surviving the handling; absorbed (dead) at level 0.
+    Direct recursion over the step-start distribution by day (Feller 1968,
+    vol. I, ch. XIV: the walk; the clock, a 3.5-day step ending after 3 or 4
+    days with chance 1/2 each, alive until it ends, is MODEL.md section 5).
+    Written here from the walk itself; shares nothing with riskdiet."""
+    width = start + 2 * days + 3
+    starts = np.zeros((days + 5, width))
+    starts[0, start] = 1.0
+    alive, kills = np.zeros(days + 5), 0.0
+    for t in range(days + 1):
+        alive[t] += starts[t].sum()
+        if t == days:
+            break
+        lives = (1.0 - mortality) * starts[t]
+        kills += up * lives.sum()
+        captured = up * lives * (1.0 - mortality) ** 2.5
+        for length in (3, 4):
+            starts[t + length, 2:] += 0.5 * captured[:-2]
+            alive[t + 1: t + length] += 0.5 * captured.sum()  # in the middle of the step
+        starts[t + 1, :-2] += (1.0 - up) * lives[2:]
+        starts[t + 1, 0] = 0.0  # reserves gone: dead
+    return alive[: days + 1], kills
+
+
+def test_cohort_with_long_captures_keeps_small_survival_exact():
+    """A walk (Feller 1968, ch. XIV) whose captures take 3.5 days, with 6 %
+    mortality per day: S(t) for a whole year, down to S(365) of order 1e-10, and
+    the kills agree to 1e-10 relative with the independent recursion above; this
+    checks the fractional-handling clock, the mass in transit and that the small
+    survival near the horizon keeps its relative precision."""
+    levels = 400
+    predator = Predator(reserve_capacity_mj=float(levels), energy_levels=levels,
+                        daily_cost_mj=2.0, start_reserves=10 / levels,
+                        background_mortality=0.06)
+    prey = (Prey(name="prey", encounters_per_day=-math.log1p(-0.6), energy_mj=9.0,
+                 handling_days=2.5, capture_success=1.0),)
+    grid = make_grid(predator, prey)
+    solution = solve_grid(grid)
+    assert np.all(solution.living_priority(grid) == 0)  # the prey is taken everywhere
+    alive, kills = slow_walk_reference(0.6, 0.06, 10, 365)
+    out = released_cohort(grid, solution, 365)
+    assert alive[-1] < 1e-8
+    np.testing.assert_allclose(out.alive_by_day, alive, rtol=1e-10, atol=0)
+    assert out.kills[0] == pytest.approx(kills, rel=1e-10)
+
+
 @pytest.fixture(scope="module")
 def injured_case():
     predator, prey, grid = grid_of(injury_raw(background_mortality=0.01))

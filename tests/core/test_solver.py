@@ -392,3 +392,18 @@ def test_an_iterative_answer_is_checked_state_by_state():
     assert np.abs(matrix @ off - b).max() <= 1e-13 * np.abs(b).max()  # norm-wise: fine
     assert not solve.accepted(off, b)
     assert not solve.accepted(np.array([exact[0], -1e-30]), b)
+
+
+def test_leaving_out_the_marginal_changes_nothing_else():
+    """The grid check solves without the marginal value of hunting ability (MODEL.md
+    section 8 compares fitness and kills only): the policy, V and U are those of the
+    full solve (the same policy iteration, MODEL.md section 3), and the marginal
+    fields say "not computed" (NaN) instead of a number."""
+    _, _, grid = grid_of(injury_raw())
+    full = solver.solve_breeding(grid)
+    lean = solver.solve_breeding(grid, marginal=False)
+    np.testing.assert_array_equal(lean.priority, full.priority)
+    np.testing.assert_array_equal(lean.fitness, full.fitness)
+    np.testing.assert_array_equal(lean.complement, full.complement)
+    assert np.isnan(lean.marginal_hunting_ability)
+    assert np.isnan(lean.marginal_by_level[:, grid.living]).all()
