@@ -29,10 +29,10 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg as sla
 from scipy.linalg.lapack import dgetrf as _getrf
 from threadpoolctl import threadpool_limits
 
+from riskdiet.core.banded import band_factor, band_layout, band_solve, deinterleave, interleave
 from riskdiet.core.choice import (
     choice_values,
     default_sets,
@@ -269,18 +269,23 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
     rounds = np.zeros(batch, dtype=np.int64)
     failures: list[str | None] = [None] * batch
     active = np.arange(batch)
+    layout = None
     for iteration in range(1, max_iterations + 1):
         sub = take_cells(grid, active)
         tg = targets(sub)
         attack_prob = attack_probabilities(sub.encounter_prob, priority)
         parts = outcomes(sub, tg, attack_prob)
-        system, breed = dense_system(sub, parts, fortran=True)
-        death = death_chances(sub, tg, attack_prob, parts).sum(-3).reshape(len(active), -1)
-        factors = _lu_factor(system)
-        rhs = np.stack([breed, death], axis=-1)
+        if layout is None:  # where the entries go does not depend on the policy
+            layout = band_layout(sub, parts)
+        here = layout.take(active)
+        band, breed = here.assemble(parts)
+        death = death_chances(sub, tg, attack_prob, parts).sum(-3)
+        factors = band_factor(band, here.kl, here.ku)
+        rhs = np.stack([breed, interleave(death)], axis=-1)
         with np.errstate(all="ignore"):
-            sol = sla.lu_solve(factors, rhs, check_finite=False)
-        v, u = sol[..., 0], sol[..., 1]
+            sol = band_solve(*factors[:2], here.kl, here.ku, rhs)
+        v = deinterleave(sol[..., 0]).reshape(len(active), -1)
+        u = deinterleave(sol[..., 1]).reshape(len(active), -1)
         bad = ~(np.isfinite(v).all(-1) & np.isfinite(u).all(-1))
         worst = np.where(bad, np.inf, np.abs(v + u - 1.0).max(-1, initial=0.0))
         inexact = ~bad & ((worst > SUM_LIMIT) | (v.min(-1, initial=0.0) < -SUM_LIMIT)
@@ -326,11 +331,13 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
             direct = alive * (ap * cv.d_attack[keep]
                               * part.capture_slope[..., :, None, :]).sum(-1)
             unit = np.zeros((len(keep), 2 * m, 2))
-            unit[np.arange(len(keep)), start_idx, 0] = 1.0
-            unit[np.arange(len(keep)), part.after_breeding_level - 1, 1] = 1.0
+            # level-major positions of (j0, healthy) and (j_rho, healthy)
+            unit[np.arange(len(keep)), 2 * start_idx, 0] = 1.0
+            unit[np.arange(len(keep)), 2 * (part.after_breeding_level - 1), 1] = 1.0
             with np.errstate(all="ignore"):
-                rows = sla.lu_solve(piece, unit, trans=1, check_finite=False)
-            from_start, from_restart = rows[..., 0], rows[..., 1]
+                rows = band_solve(*piece, here.kl, here.ku, unit, transposed=True)
+            from_start = deinterleave(rows[..., 0]).reshape(len(keep), -1)
+            from_restart = deinterleave(rows[..., 1]).reshape(len(keep), -1)
             start[cells] = full[keep, 0, part.start_level]
             marginal[cells] = (from_start * direct.reshape(len(keep), -1)).sum(-1)
             if extra_direct is not None:
