@@ -31,6 +31,11 @@ from scipy.linalg.lapack import dgbtrf, dgbtrs
 
 from riskdiet.core.grid import Grid, Outcome
 
+CHUNK = 4
+"""Cells placed in band storage at once: four bands of the map benchmark (n = 198,
+149 rows) take 0.9 MiB, so a cell's band stays in the processor's cache from its
+placement through its factorisation and solves."""
+
 
 def interleave(x: np.ndarray) -> np.ndarray:
     """Condition-major (…, 2, m) state arrays as level-major (…, 2 m) vectors."""
@@ -48,30 +53,42 @@ class BandLayout:
 
     Band storage as LAPACK's gbtrf wants it: for each cell an array of shape
     ``(2 kl + ku + 1, 2 m)``, column by column, entry (i, j) of the matrix at
-    row ``kl + ku + i - j``. The batch is held as a C-ordered array of shape
-    ``(B, 2 m, 2 kl + ku + 1)`` so that each cell's transpose is the
-    Fortran-ordered band.
+    row ``kl + ku + i - j`` (the first ``kl`` rows hold the fill-in of the
+    pivots). Each cell's storage is laid out as a C-ordered ``(2 m, 2 kl + ku + 1)``
+    block, whose transpose is the Fortran-ordered band.
+
+    Several outcomes land on the same entry, so each cell's entries are
+    numbered once (``slot``) and a round sums the chances by slot
+    (``numpy.bincount``, in the order of the outcomes, as a dense assembly
+    would) into a short vector per cell before they are placed in the band.
 
     Attributes
     ----------
     kl, ku : int
         Sub- and superdiagonals of I - P (largest over the batch's cells).
-    index : list of ndarray, each shape (4, B, 2, m, X)
-        Per outcome (quiet day, captures, injuries): position within the cell's
-        band storage of the mass landing on the split's lower and upper level
-        (first axis: lower-healthy, lower-injured, upper-healthy, upper-injured).
-    share : list of ndarray, each shape (4, B, 2, m, X)
-        The fraction of the outcome's chance that goes there (interpolation
-        weight times the chance of each condition; 0 where it lands on death or
-        breeding).
+    size : int
+        Unknowns per cell, 2 m.
+    share : list of ndarray, each shape (B, 4, 2, m, X)
+        Per outcome (quiet day, captures, injuries): the fraction of its chance
+        that lands on the split's lower level healthy, lower injured, upper
+        healthy and upper injured (interpolation weight times the chance of
+        each condition; 0 where it lands on death or breeding).
+    slot : ndarray of int, shape (B, L)
+        The entry of the cell that each of those L fractions adds to.
+    position : ndarray of int, shape (B, S)
+        Position of each entry in the cell's band storage, read as a flat
+        C-ordered ``(2 m, 2 kl + ku + 1)`` block; entries beyond a cell's own
+        count point at a spare element just after the block.
     breed : list of ndarray, each shape (B, 2, m, X)
-        The fraction of the outcome's chance that reaches breeding.
+        The fraction of each outcome's chance that reaches breeding.
     """
 
     kl: int
     ku: int
-    index: list[np.ndarray]
+    size: int
     share: list[np.ndarray]
+    slot: np.ndarray
+    position: np.ndarray
     breed: list[np.ndarray]
 
     @property
@@ -79,13 +96,17 @@ class BandLayout:
         """Rows of the band storage, 2 kl + ku + 1 (room for the pivots' fill-in)."""
         return 2 * self.kl + self.ku + 1
 
+    @property
+    def cells(self) -> int:
+        return self.slot.shape[0]
+
     def take(self, cells: np.ndarray) -> BandLayout:
         """The layout of the cells ``cells`` (same bandwidths)."""
-        return BandLayout(self.kl, self.ku, [i[:, cells] for i in self.index],
-                          [s[:, cells] for s in self.share], [b[cells] for b in self.breed])
+        return BandLayout(self.kl, self.ku, self.size, [s[cells] for s in self.share],
+                          self.slot[cells], self.position[cells], [b[cells] for b in self.breed])
 
-    def assemble(self, parts: list[Outcome]) -> tuple[np.ndarray, np.ndarray]:
-        """I - P of each cell in band storage, and the one-step breeding chance.
+    def entries(self, parts: list[Outcome]) -> np.ndarray:
+        """The entries of each cell's -P, summed by slot.
 
         Parameters
         ----------
@@ -95,28 +116,50 @@ class BandLayout:
 
         Returns
         -------
-        band : ndarray, shape (B, 2 m, 2 kl + ku + 1)
-            ``band[b].T`` is cell b's I - P in LAPACK band storage
-            (Fortran-ordered, ready to be factorised in place).
-        breed : ndarray, shape (B, 2 m)
-            Level-major one-step chance of reaching breeding.
+        ndarray, shape (B, S)
+            Entry ``s`` belongs at ``position[:, s]`` of the band storage.
         """
-        batch = self.breed[0].shape[0]
-        size = self.breed[0].shape[-3] * self.breed[0].shape[-2]
-        cell_size = size * self.rows
-        offset = (np.arange(batch) * cell_size)[None, :, None, None, None]
-        idx = np.concatenate([(i + offset).reshape(-1) for i in self.index])
-        vals = np.concatenate([(-o.prob[None] * s).reshape(-1)
-                               for o, s in zip(parts, self.share, strict=True)])
-        band = np.bincount(idx, vals, minlength=batch * cell_size).reshape(
-            batch, size, self.rows)
-        band[:, :, self.kl + self.ku] += 1.0
+        batch, width = self.position.shape
+        vals = np.concatenate([(-o.prob[:, None] * s).reshape(batch, -1)
+                               for o, s in zip(parts, self.share, strict=True)], axis=1)
+        index = self.slot + (np.arange(batch) * width)[:, None]
+        return np.bincount(index.reshape(-1), vals.reshape(-1),
+                           minlength=batch * width).reshape(batch, width)
+
+    def breed_chance(self, parts: list[Outcome]) -> np.ndarray:
+        """Level-major one-step chance of reaching breeding, shape (B, 2 m)."""
         breed = sum((o.prob * b).sum(-1) for o, b in zip(parts, self.breed, strict=True))
-        return band, interleave(breed)
+        return interleave(breed)
+
+    def place(self, entries: np.ndarray, out: np.ndarray, first: int = 0) -> None:
+        """Write I - P of cells ``first, first + 1, ...`` into band storage ``out``.
+
+        ``out`` has shape (C, 2 m * rows + 1) and is zero; ``entries`` holds
+        the C cells' rows of :meth:`entries`.
+        """
+        count = entries.shape[0]
+        block = out.shape[1]
+        np.put(out[:count], self.position[first:first + count]
+               + (np.arange(count) * block)[:, None], entries)
+        out[:count, self.diagonal] += 1.0
+
+    @property
+    def diagonal(self) -> np.ndarray:
+        """Positions of the main diagonal in a cell's band storage."""
+        return np.arange(self.size) * self.rows + self.kl + self.ku
+
+    def assemble(self, parts: list[Outcome]) -> np.ndarray:
+        """I - P of every cell in band storage, shape (B, 2 m, 2 kl + ku + 1).
+
+        ``band[b].T`` is cell b's matrix in LAPACK band storage.
+        """
+        out = np.zeros((self.cells, self.size * self.rows + 1))
+        self.place(self.entries(parts), out)
+        return out[:, :-1].reshape(self.cells, self.size, self.rows)
 
 
 def band_layout(grid: Grid, parts: list[Outcome]) -> BandLayout:
-    """Positions and shares of every outcome in the band storage of I - P.
+    """Slots, positions and shares of every outcome in the band storage of I - P.
 
     Parameters
     ----------
@@ -127,6 +170,7 @@ def band_layout(grid: Grid, parts: list[Outcome]) -> BandLayout:
         condition shares (which do not depend on the policy) are used.
     """
     m, top = grid.n_living, grid.top
+    size = 2 * m
     batch = parts[0].prob.shape[0]
     state = 2 * np.arange(m)[None, None, :, None] + np.arange(2)[None, :, None, None]
     pieces = []
@@ -134,17 +178,18 @@ def band_layout(grid: Grid, parts: list[Outcome]) -> BandLayout:
         shape = o.prob.shape
         row = np.broadcast_to(state, shape)
         cols, shares, breed = [], [], np.zeros(shape)
+        healthy = np.broadcast_to(o.healthy_share, shape)
         for level, wt in ((o.split.low, 1.0 - o.split.weight),
                           (o.split.low + 1, o.split.weight)):
             level = np.broadcast_to(level, shape)
             alive = (level >= 1) & (level < top)
             breed = breed + np.where(level >= top, wt, 0.0)
-            healthy = np.broadcast_to(o.healthy_share, shape)
             for cond, part in ((0, wt * healthy), (1, wt * (1.0 - healthy))):
-                col = np.where(alive, 2 * (level - 1) + cond, row)
-                cols.append(col)
+                # an entry that lands on death or breeding adds 0 to the diagonal
+                cols.append(np.where(alive, 2 * (level - 1) + cond, row))
                 shares.append(np.where(alive, part, 0.0))
-        pieces.append((row, np.stack(cols), np.stack(shares), breed))
+        pieces.append((np.broadcast_to(row, (4, *shape)), np.stack(cols), np.stack(shares),
+                       breed))
     kl = ku = 0
     for row, col, share, _ in pieces:
         used = share != 0.0
@@ -152,65 +197,80 @@ def band_layout(grid: Grid, parts: list[Outcome]) -> BandLayout:
             kl = max(kl, int((row - col)[used].max()))
             ku = max(ku, int((col - row)[used].max()))
     rows = 2 * kl + ku + 1
-    index = [col * rows + (kl + ku) + row - col for row, col, _, _ in pieces]
-    assert batch == pieces[0][3].shape[0]
-    return BandLayout(kl, ku, index, [p[2] for p in pieces], [p[3] for p in pieces])
+    block = size * rows
+    # flat position in the C-ordered (2m, rows) block: column-major band storage
+    position = np.concatenate([np.moveaxis(col * rows + (kl + ku) + row - col, 1, 0)
+                               .reshape(batch, -1) for row, col, _, _ in pieces], axis=1)
+    # cells whose outcomes land on the same levels (e.g. all cells of a map that changes
+    # chances only) share their numbering of the entries: number each structure once
+    # (grouped by their bytes: numpy.unique along an axis sorts whole rows, far slower)
+    seen: dict[bytes, int] = {}
+    which = np.array([seen.setdefault(position[b].tobytes(), len(seen))
+                      for b in range(batch)])
+    slots, wheres = [], []
+    for first in np.unique(which, return_index=True)[1]:
+        cell_positions = position[first]
+        used = np.zeros(block, dtype=bool)
+        used[cell_positions] = True
+        slots.append(np.cumsum(used)[cell_positions] - 1)
+        wheres.append(np.flatnonzero(used))
+    width = max(len(w) for w in wheres)
+    where = np.full((len(wheres), width), block)  # spare element after the block
+    for k, w in enumerate(wheres):
+        where[k, :len(w)] = w
+    return BandLayout(kl, ku, size, [np.moveaxis(p[2], 1, 0) for p in pieces],
+                      np.asarray(slots)[which], where[which], [p[3] for p in pieces])
 
 
-def band_factor(band: np.ndarray, kl: int, ku: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Banded LU of each cell, in place (LAPACK gbtrf).
+def factor_solve(layout: BandLayout, entries: np.ndarray, rhs: np.ndarray,
+                 rhs_transposed: np.ndarray, chunk: int = CHUNK
+                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Factorise each cell's I - P (LAPACK gbtrf) and solve it and its transpose (gbtrs).
+
+    The cells are placed in band storage a few at a time and each is solved
+    right after its factorisation, while its band is still in the processor's
+    cache; the factors are not kept.
 
     Parameters
     ----------
-    band : ndarray, shape (B, n, 2 kl + ku + 1)
-        As returned by :meth:`BandLayout.assemble` (overwritten by the factors).
+    layout : BandLayout
+    entries : ndarray, shape (B, S)
+        From :meth:`BandLayout.entries`.
+    rhs : ndarray, shape (B, 2 m, r)
+        Right-hand sides of (I - P) x = rhs.
+    rhs_transposed : ndarray, shape (B, 2 m, t)
+        Right-hand sides of (I - P)^T y = rhs_transposed.
+    chunk : int
+        Cells placed in band storage at once.
 
     Returns
     -------
-    factors : ndarray
-        ``band``, now holding the factors.
-    pivots : ndarray of int32, shape (B, n)
+    x : ndarray, shape (B, 2 m, r)
+    y : ndarray, shape (B, 2 m, t)
     info : ndarray of int, shape (B,)
-        LAPACK's status per cell: > 0 means an exactly zero pivot (singular).
+        LAPACK's status per cell: > 0 means an exactly zero pivot (singular;
+        x and y then hold infinities or NaN).
     """
-    pivots = np.empty(band.shape[:2], dtype=np.int32)
-    info = np.zeros(band.shape[0], dtype=int)
-    for i in range(band.shape[0]):
-        ab = band[i].T  # Fortran-ordered: factorised where it lies
-        lu, piv, inf = dgbtrf(ab, kl, ku, overwrite_ab=1)
-        if inf < 0:  # pragma: no cover - an argument error cannot happen here
-            raise ValueError(f"gbtrf argument {-inf} invalid")
-        # bounds only: np.shares_memory solves an exact overlap problem, far slower
-        if not np.may_share_memory(lu, ab):  # pragma: no cover - f2py copied after all
-            band[i] = lu.T
-        pivots[i] = piv
-        info[i] = inf
-    return band, pivots, info
+    kl, ku, size, rows = layout.kl, layout.ku, layout.size, layout.rows
+    batch = entries.shape[0]
+    x = np.empty(rhs.shape)
+    y = np.empty(rhs_transposed.shape)
+    info = np.zeros(batch, dtype=int)
+    buffer = np.empty((min(chunk, batch), size * rows + 1))
+    for lo in range(0, batch, chunk):
+        count = min(chunk, batch - lo)
+        buffer[:count] = 0.0
+        layout.place(entries[lo:lo + count], buffer, lo)
+        for c in range(count):
+            ab = buffer[c, :-1].reshape(size, rows).T  # Fortran-ordered band, factorised in place
+            lu, piv, inf = dgbtrf(ab, kl, ku, overwrite_ab=1)
+            if inf < 0:  # pragma: no cover - an argument error cannot happen here
+                raise ValueError(f"gbtrf argument {-inf} invalid")
+            i = lo + c
+            info[i] = inf
+            x[i] = dgbtrs(lu, kl, ku, rhs[i], piv)[0]
+            y[i] = dgbtrs(lu, kl, ku, rhs_transposed[i], piv, trans=1)[0]
+    return x, y, info
 
 
-def band_solve(factors: np.ndarray, pivots: np.ndarray, kl: int, ku: int, rhs: np.ndarray,
-               transposed: bool = False) -> np.ndarray:
-    """Solve (I - P) x = rhs, or its transpose, with banded LU factors (LAPACK gbtrs).
-
-    Parameters
-    ----------
-    factors, pivots : ndarray
-        From :func:`band_factor`.
-    rhs : ndarray, shape (B, n, r)
-    transposed : bool
-        Solve (I - P)^T x = rhs.
-
-    Returns
-    -------
-    ndarray, shape (B, n, r)
-    """
-    out = np.empty(rhs.shape)
-    trans = 1 if transposed else 0
-    for i in range(factors.shape[0]):
-        x, _ = dgbtrs(factors[i].T, kl, ku, rhs[i], pivots[i], trans=trans)
-        out[i] = x
-    return out
-
-
-__all__ = ["BandLayout", "band_factor", "band_layout", "band_solve", "deinterleave",
-           "interleave"]
+__all__ = ["CHUNK", "BandLayout", "band_layout", "deinterleave", "factor_solve", "interleave"]

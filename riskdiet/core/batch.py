@@ -32,7 +32,7 @@ import numpy as np
 from scipy.linalg.lapack import dgetrf as _getrf
 from threadpoolctl import threadpool_limits
 
-from riskdiet.core.banded import band_factor, band_layout, band_solve, deinterleave, interleave
+from riskdiet.core.banded import band_layout, deinterleave, factor_solve, interleave
 from riskdiet.core.choice import (
     choice_values,
     default_sets,
@@ -278,12 +278,15 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
         if layout is None:  # where the entries go does not depend on the policy
             layout = band_layout(sub, parts)
         here = layout.take(active)
-        band, breed = here.assemble(parts)
         death = death_chances(sub, tg, attack_prob, parts).sum(-3)
-        factors = band_factor(band, here.kl, here.ku)
-        rhs = np.stack([breed, interleave(death)], axis=-1)
+        rhs = np.stack([here.breed_chance(parts), interleave(death)], axis=-1)
+        # rows of (I - P)^-1 for (j0, healthy) and (j_rho, healthy), level-major; they are
+        # needed only once the policy has settled, but cost little while the factors are at hand
+        unit = np.zeros((len(active), 2 * m, 2))
+        unit[np.arange(len(active)), 2 * (sub.start_level - 1), 0] = 1.0
+        unit[np.arange(len(active)), 2 * (sub.after_breeding_level - 1), 1] = 1.0
         with np.errstate(all="ignore"):
-            sol = band_solve(*factors[:2], here.kl, here.ku, rhs)
+            sol, rows, _ = factor_solve(here, here.entries(parts), rhs, unit)
         v = deinterleave(sol[..., 0]).reshape(len(active), -1)
         u = deinterleave(sol[..., 1]).reshape(len(active), -1)
         bad = ~(np.isfinite(v).all(-1) & np.isfinite(u).all(-1))
@@ -324,20 +327,12 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
                     failures[c] = (f"the optimality check failed: the Bellman residual "
                                    f"relative to the values is {r:.1e}, above the accepted "
                                    f"{RESIDUAL_LIMIT:.0e}")
-            piece = (factors[0][keep], factors[1][keep])
-            start_idx = part.start_level - 1
             alive = (1.0 - part.mortality)[..., :, None]
             ap = attack_prob[keep]
             direct = alive * (ap * cv.d_attack[keep]
                               * part.capture_slope[..., :, None, :]).sum(-1)
-            unit = np.zeros((len(keep), 2 * m, 2))
-            # level-major positions of (j0, healthy) and (j_rho, healthy)
-            unit[np.arange(len(keep)), 2 * start_idx, 0] = 1.0
-            unit[np.arange(len(keep)), 2 * (part.after_breeding_level - 1), 1] = 1.0
-            with np.errstate(all="ignore"):
-                rows = band_solve(*piece, here.kl, here.ku, unit, transposed=True)
-            from_start = deinterleave(rows[..., 0]).reshape(len(keep), -1)
-            from_restart = deinterleave(rows[..., 1]).reshape(len(keep), -1)
+            from_start = deinterleave(rows[keep, :, 0]).reshape(len(keep), -1)
+            from_restart = deinterleave(rows[keep, :, 1]).reshape(len(keep), -1)
             start[cells] = full[keep, 0, part.start_level]
             marginal[cells] = (from_start * direct.reshape(len(keep), -1)).sum(-1)
             if extra_direct is not None:

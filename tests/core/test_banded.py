@@ -17,10 +17,10 @@ import scipy.linalg as sla
 from conftest import grid_of, injury_raw
 
 from riskdiet.core.banded import (
-    band_factor,
+    BandLayout,
     band_layout,
-    band_solve,
     deinterleave,
+    factor_solve,
     interleave,
 )
 from riskdiet.core.grid import attack_probabilities, outcomes, stack_grids, targets
@@ -31,9 +31,11 @@ LEVELS = 24
 
 def _grids():
     """Invented variants of the three-prey injury study (illustrative numbers):
-    integer and fractional costs, so splits land on one level or two."""
+    integer and fractional costs, so splits land on one level or two; the
+    first and last cells differ only in hunting ability, so their entries land
+    on the same levels."""
     raws = [injury_raw(energy_levels=LEVELS, daily_cost_mj=c, hunting_ability=a)
-            for c, a in ((1.3, 1.1), (2.5, 0.4), (1.0, 2.0), (1.75, 3.5))]
+            for c, a in ((1.3, 1.1), (2.5, 0.4), (1.0, 2.0), (1.75, 3.5), (1.3, 2.2))]
     return [grid_of(raw)[2] for raw in raws]
 
 
@@ -64,7 +66,8 @@ def batch():
     priority = _policy(stacked, seed=3)
     parts = outcomes(stacked, tg, attack_probabilities(stacked.encounter_prob, priority))
     layout = band_layout(stacked, parts)
-    band, breed = layout.assemble(parts)
+    band = layout.assemble(parts)
+    breed = layout.breed_chance(parts)
     references = []
     for b, grid in enumerate(grids):
         one = outcomes(grid, targets(grid),
@@ -123,37 +126,43 @@ def test_layout_of_a_subset_assembles_the_same_cells(batch):
     keep = np.array([3, 1])
     sub_parts = [type(o)(o.prob[keep], o.split, o.healthy_share, o.prey, o.captured, o.days)
                  for o in parts]
-    sub_band, sub_breed = layout.take(keep).assemble(sub_parts)
+    sub = layout.take(keep)
+    sub_band, sub_breed = sub.assemble(sub_parts), sub.breed_chance(sub_parts)
     np.testing.assert_array_equal(sub_band, band[keep])
     np.testing.assert_array_equal(sub_breed, breed[keep])
 
 
-@pytest.mark.parametrize("transposed", [False, True])
-def test_band_solve_equals_scipy_dense_solve(batch, transposed):
-    """Banded LU (LAPACK gbtrf/gbtrs) solves (I - P) x = r and its transpose as
-    scipy.linalg.solve does on the dense single-study matrix
-    (riskdiet.core.solver.transition_matrix, level-major), to 1e-12 relative."""
-    grids, _, _, layout, band, _, references = batch
+def test_band_solves_equal_scipy_dense_solves(batch):
+    """Banded LU (LAPACK gbtrf/gbtrs, a few cells at a time) solves (I - P) x = r
+    and (I - P)^T y = t as scipy.linalg.solve does on the dense single-study
+    matrix (riskdiet.core.solver.transition_matrix, level-major), to 1e-12
+    relative, for every cell and whatever the chunk size."""
+    grids, _, parts, layout, band, _, references = batch
     rng = np.random.default_rng(5)
     rhs = rng.random((band.shape[0], band.shape[1], 3))
-    factors, pivots, info = band_factor(band.copy(), layout.kl, layout.ku)
-    assert (info == 0).all()
-    x = band_solve(factors, pivots, layout.kl, layout.ku, rhs, transposed=transposed)
-    for b, grid in enumerate(grids):
-        m = grid.n_living
-        perm = np.array([k * m + j for j in range(m) for k in range(2)])
-        dense = references[b][0][np.ix_(perm, perm)]
-        reference = sla.solve(dense.T if transposed else dense, rhs[b])
-        np.testing.assert_allclose(x[b], reference, rtol=1e-12, atol=0)
+    rhs_t = rng.random((band.shape[0], band.shape[1], 2))
+    entries = layout.entries(parts)
+    for chunk in (1, 2, 4):
+        x, y, info = factor_solve(layout, entries, rhs, rhs_t, chunk=chunk)
+        assert (info == 0).all()
+        for b, grid in enumerate(grids):
+            m = grid.n_living
+            perm = np.array([k * m + j for j in range(m) for k in range(2)])
+            dense = references[b][0][np.ix_(perm, perm)]
+            np.testing.assert_allclose(x[b], sla.solve(dense, rhs[b]), rtol=1e-12, atol=0)
+            np.testing.assert_allclose(y[b], sla.solve(dense.T, rhs_t[b]), rtol=1e-12, atol=0)
 
 
 def test_a_singular_system_is_flagged():
     """A zero column makes the matrix singular; gbtrf reports it with info > 0
-    (LAPACK Users' Guide: U(i, i) is exactly zero), which the solver turns into
-    a failed cell."""
+    (LAPACK Users' Guide: U(i, i) is exactly zero) and the solution is not
+    finite, which the solver turns into a failed cell."""
     n, kl, ku = 6, 1, 2
-    band = np.zeros((1, n, 2 * kl + ku + 1))
-    band[0, :, kl + ku] = 1.0
-    band[0, 3, :] = 0.0  # column 3 of the matrix
-    _, _, info = band_factor(band, kl, ku)
+    rows = 2 * kl + ku + 1
+    # I - P with P = 1 at (3, 3) only: column 3 of I - P is zero
+    layout = BandLayout(kl, ku, n, [], np.zeros((1, 1), dtype=int),
+                        np.array([[3 * rows + kl + ku]]), [])
+    x, _, info = factor_solve(layout, np.array([[-1.0]]), np.ones((1, n, 1)),
+                              np.ones((1, n, 1)))
     assert info[0] == 4
+    assert not np.isfinite(x).all()
