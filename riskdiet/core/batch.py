@@ -34,10 +34,12 @@ from threadpoolctl import threadpool_limits
 
 from riskdiet.core.banded import band_layout, deinterleave, factor_solve, interleave
 from riskdiet.core.choice import (
+    better,
     choice_values,
     default_sets,
-    keep_unless_better,
-    relative_residual,
+    greedy_sets,
+    one_step_value,
+    set_values,
 )
 from riskdiet.core.grid import (
     Grid,
@@ -299,7 +301,7 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
         cap = (len(active), n_prey, 2, top + 1)
         cv = choice_values(sub, tg, full, full_u, np.broadcast_to(full[:, None], cap),
                            np.broadcast_to(full_u[:, None], cap))
-        improved, switched = keep_unless_better(sub, cv, priority)
+        improved, switched, greedy_v, greedy_u = _improve(sub, cv, priority, attack_prob)
         done = ~switched.reshape(len(active), -1).any(axis=1) | bad | inexact
         if iteration == max_iterations:
             for c in active[~done]:
@@ -318,9 +320,8 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
             rounds[cells] = iteration
             out_priority[cells] = priority[keep]
             part = take_cells(sub, keep)
-            cv_keep = type(cv)(*(getattr(cv, f)[keep] for f in cv.__dataclass_fields__))
-            res = relative_residual(part, cv_keep, full[keep][..., 1:top],
-                                    full_u[keep][..., 1:top]).reshape(len(keep), -1).max(axis=1)
+            res = _relative_residual(greedy_v[keep], greedy_u[keep], full[keep][..., 1:top],
+                                     full_u[keep][..., 1:top]).reshape(len(keep), -1).max(axis=1)
             residual[cells] = res
             for c, r in zip(cells, res, strict=True):
                 if failures[c] is None and not (np.isfinite(r) and r <= RESIDUAL_LIMIT):
@@ -354,6 +355,38 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
                 extra[c] = 0.0
     return BatchSolution(values, out_priority, start, marginal, extra, kills, residual, rounds,
                          tuple(failures))
+
+
+def _improve(grid: Grid, cv, incumbent: np.ndarray, attack_prob: np.ndarray
+             ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """:func:`riskdiet.core.choice.keep_unless_better`, reusing what the round already has.
+
+    The incumbent's attack chances are those its outcomes were built from, and
+    the greedy set's one-step values are also T V of the Bellman residual, so
+    neither is computed twice.
+
+    Returns
+    -------
+    policy, switched
+        As :func:`riskdiet.core.choice.keep_unless_better`.
+    greedy_v, greedy_u : ndarray, shape (B, 2, m)
+        T V and its complement: the one-step values of the greedy set.
+    """
+    greedy = greedy_sets(cv)
+    gv, gu, _ = set_values(grid, cv, greedy)
+    mu = grid.mortality[..., :, None]
+    iv = one_step_value(grid, cv.ignore_v, cv.attack_v, attack_prob)
+    iu = mu + (1.0 - mu) * (cv.ignore_u
+                            + (attack_prob * (cv.attack_u - cv.ignore_u[..., None])).sum(-1))
+    switched = better(gv, gu, iv, iu) & (greedy != incumbent).any(-1)
+    return np.where(switched[..., None], greedy, incumbent), switched, gv, gu
+
+
+def _relative_residual(tv: np.ndarray, tu: np.ndarray, v: np.ndarray, u: np.ndarray
+                       ) -> np.ndarray:
+    """:func:`riskdiet.core.choice.relative_residual` from T V and its complement."""
+    diff = np.where(v > 0.5, np.abs(tu - u), np.abs(tv - v))
+    return diff / np.maximum(np.maximum(v, u), 1e-300)
 
 
 def _kill_rates(grid: Grid, attack_prob: np.ndarray, from_start: np.ndarray,
