@@ -68,11 +68,12 @@ class BandLayout:
         Sub- and superdiagonals of I - P (largest over the batch's cells).
     size : int
         Unknowns per cell, 2 m.
-    share : list of ndarray, each shape (B, 4, 2, m, X)
-        Per outcome (quiet day, captures, injuries): the fraction of its chance
-        that lands on the split's lower level healthy, lower injured, upper
-        healthy and upper injured (interpolation weight times the chance of
-        each condition; 0 where it lands on death or breeding).
+    share : ndarray, shape (B, L)
+        Per outcome (quiet day, captures, injuries, in this order) and for each
+        of the outcome's chances (shape (2, m, X)): the fraction that lands on
+        the split's lower level healthy, lower injured, upper healthy and upper
+        injured (interpolation weight times the chance of each condition; 0
+        where it lands on death or breeding).
     slot : ndarray of int, shape (B, L)
         The entry of the cell that each of those L fractions adds to.
     position : ndarray of int, shape (B, S)
@@ -81,12 +82,15 @@ class BandLayout:
         count point at a spare element just after the block.
     breed : list of ndarray, each shape (B, 2, m, X)
         The fraction of each outcome's chance that reaches breeding.
+
+    Methods taking ``cells`` work on those cells of the layout (the policy
+    iteration drops finished cells); by default on all.
     """
 
     kl: int
     ku: int
     size: int
-    share: list[np.ndarray]
+    share: np.ndarray
     slot: np.ndarray
     position: np.ndarray
     breed: list[np.ndarray]
@@ -97,65 +101,64 @@ class BandLayout:
         return 2 * self.kl + self.ku + 1
 
     @property
-    def cells(self) -> int:
-        return self.slot.shape[0]
+    def diagonal(self) -> np.ndarray:
+        """Positions of the main diagonal in a cell's band storage."""
+        return np.arange(self.size) * self.rows + self.kl + self.ku
 
-    def take(self, cells: np.ndarray) -> BandLayout:
-        """The layout of the cells ``cells`` (same bandwidths)."""
-        return BandLayout(self.kl, self.ku, self.size, [s[cells] for s in self.share],
-                          self.slot[cells], self.position[cells], [b[cells] for b in self.breed])
-
-    def entries(self, parts: list[Outcome]) -> np.ndarray:
+    def entries(self, parts: list[Outcome], cells: np.ndarray | None = None) -> np.ndarray:
         """The entries of each cell's -P, summed by slot.
 
         Parameters
         ----------
         parts : list of Outcome
             The step's outcomes under the current policy
-            (:func:`riskdiet.core.grid.outcomes`), for the layout's cells.
+            (:func:`riskdiet.core.grid.outcomes`), for the cells ``cells``.
 
         Returns
         -------
-        ndarray, shape (B, S)
+        ndarray, shape (C, S)
             Entry ``s`` belongs at ``position[:, s]`` of the band storage.
         """
-        batch, width = self.position.shape
-        vals = np.concatenate([(-o.prob[:, None] * s).reshape(batch, -1)
-                               for o, s in zip(parts, self.share, strict=True)], axis=1)
-        index = self.slot + (np.arange(batch) * width)[:, None]
+        share = self.share if cells is None else self.share[cells]
+        slot = self.slot if cells is None else self.slot[cells]
+        count, width = slot.shape[0], self.position.shape[1]
+        vals = np.empty(share.shape)
+        at = 0
+        for o in parts:
+            step = 4 * o.prob[0].size
+            vals[:, at:at + step].reshape(count, 4, *o.prob.shape[1:])[...] = o.prob[:, None]
+            at += step
+        np.multiply(vals, share, out=vals)
+        np.negative(vals, out=vals)
+        index = slot + (np.arange(count) * width)[:, None]
         return np.bincount(index.reshape(-1), vals.reshape(-1),
-                           minlength=batch * width).reshape(batch, width)
+                           minlength=count * width).reshape(count, width)
 
-    def breed_chance(self, parts: list[Outcome]) -> np.ndarray:
-        """Level-major one-step chance of reaching breeding, shape (B, 2 m)."""
-        breed = sum((o.prob * b).sum(-1) for o, b in zip(parts, self.breed, strict=True))
+    def breed_chance(self, parts: list[Outcome], cells: np.ndarray | None = None) -> np.ndarray:
+        """Level-major one-step chance of reaching breeding, shape (C, 2 m)."""
+        breed = sum((o.prob * (b if cells is None else b[cells])).sum(-1)
+                    for o, b in zip(parts, self.breed, strict=True))
         return interleave(breed)
 
-    def place(self, entries: np.ndarray, out: np.ndarray, first: int = 0) -> None:
-        """Write I - P of cells ``first, first + 1, ...`` into band storage ``out``.
+    def place(self, entries: np.ndarray, out: np.ndarray, position: np.ndarray) -> None:
+        """Write I - P of C cells into zeroed band storage ``out``, shape (C, 2 m rows + 1).
 
-        ``out`` has shape (C, 2 m * rows + 1) and is zero; ``entries`` holds
-        the C cells' rows of :meth:`entries`.
+        ``entries`` and ``position`` are those cells' rows of :meth:`entries`
+        and of :attr:`position`.
         """
         count = entries.shape[0]
-        block = out.shape[1]
-        np.put(out[:count], self.position[first:first + count]
-               + (np.arange(count) * block)[:, None], entries)
+        np.put(out[:count], position + (np.arange(count) * out.shape[1])[:, None], entries)
         out[:count, self.diagonal] += 1.0
 
-    @property
-    def diagonal(self) -> np.ndarray:
-        """Positions of the main diagonal in a cell's band storage."""
-        return np.arange(self.size) * self.rows + self.kl + self.ku
-
-    def assemble(self, parts: list[Outcome]) -> np.ndarray:
-        """I - P of every cell in band storage, shape (B, 2 m, 2 kl + ku + 1).
+    def assemble(self, parts: list[Outcome], cells: np.ndarray | None = None) -> np.ndarray:
+        """I - P of the cells in band storage, shape (C, 2 m, 2 kl + ku + 1).
 
         ``band[b].T`` is cell b's matrix in LAPACK band storage.
         """
-        out = np.zeros((self.cells, self.size * self.rows + 1))
-        self.place(self.entries(parts), out)
-        return out[:, :-1].reshape(self.cells, self.size, self.rows)
+        position = self.position if cells is None else self.position[cells]
+        out = np.zeros((position.shape[0], self.size * self.rows + 1))
+        self.place(self.entries(parts, cells), out, position)
+        return out[:, :-1].reshape(position.shape[0], self.size, self.rows)
 
 
 def band_layout(grid: Grid, parts: list[Outcome]) -> BandLayout:
@@ -218,13 +221,14 @@ def band_layout(grid: Grid, parts: list[Outcome]) -> BandLayout:
     where = np.full((len(wheres), width), block)  # spare element after the block
     for k, w in enumerate(wheres):
         where[k, :len(w)] = w
-    return BandLayout(kl, ku, size, [np.moveaxis(p[2], 1, 0) for p in pieces],
-                      np.asarray(slots)[which], where[which], [p[3] for p in pieces])
+    share = np.concatenate([np.moveaxis(p[2], 1, 0).reshape(batch, -1) for p in pieces], axis=1)
+    return BandLayout(kl, ku, size, share, np.asarray(slots)[which], where[which],
+                      [p[3] for p in pieces])
 
 
 def factor_solve(layout: BandLayout, entries: np.ndarray, rhs: np.ndarray,
-                 rhs_transposed: np.ndarray, chunk: int = CHUNK
-                 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                 rhs_transposed: np.ndarray, cells: np.ndarray | None = None,
+                 chunk: int = CHUNK) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Factorise each cell's I - P (LAPACK gbtrf) and solve it and its transpose (gbtrs).
 
     The cells are placed in band storage a few at a time and each is solved
@@ -235,7 +239,8 @@ def factor_solve(layout: BandLayout, entries: np.ndarray, rhs: np.ndarray,
     ----------
     layout : BandLayout
     entries : ndarray, shape (B, S)
-        From :meth:`BandLayout.entries`.
+        From :meth:`BandLayout.entries`, for the cells ``cells`` of the layout
+        (default: all).
     rhs : ndarray, shape (B, 2 m, r)
         Right-hand sides of (I - P) x = rhs.
     rhs_transposed : ndarray, shape (B, 2 m, t)
@@ -260,7 +265,8 @@ def factor_solve(layout: BandLayout, entries: np.ndarray, rhs: np.ndarray,
     for lo in range(0, batch, chunk):
         count = min(chunk, batch - lo)
         buffer[:count] = 0.0
-        layout.place(entries[lo:lo + count], buffer, lo)
+        index = slice(lo, lo + count) if cells is None else cells[lo:lo + count]
+        layout.place(entries[lo:lo + count], buffer, layout.position[index])
         for c in range(count):
             ab = buffer[c, :-1].reshape(size, rows).T  # Fortran-ordered band, factorised in place
             lu, piv, inf = dgbtrf(ab, kl, ku, overwrite_ab=1)

@@ -44,6 +44,8 @@ from riskdiet.core.choice import (
 from riskdiet.core.grid import (
     Grid,
     Outcome,
+    Split,
+    Targets,
     attack_probabilities,
     death_chances,
     kill_probabilities,
@@ -272,23 +274,23 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
     failures: list[str | None] = [None] * batch
     active = np.arange(batch)
     layout = None
+    all_targets = targets(grid)
     for iteration in range(1, max_iterations + 1):
         sub = take_cells(grid, active)
-        tg = targets(sub)
+        tg = _take_targets(all_targets, active)
         attack_prob = attack_probabilities(sub.encounter_prob, priority)
         parts = outcomes(sub, tg, attack_prob)
         if layout is None:  # where the entries go does not depend on the policy
             layout = band_layout(sub, parts)
-        here = layout.take(active)
         death = death_chances(sub, tg, attack_prob, parts).sum(-3)
-        rhs = np.stack([here.breed_chance(parts), interleave(death)], axis=-1)
+        rhs = np.stack([layout.breed_chance(parts, active), interleave(death)], axis=-1)
         # rows of (I - P)^-1 for (j0, healthy) and (j_rho, healthy), level-major; they are
         # needed only once the policy has settled, but cost little while the factors are at hand
         unit = np.zeros((len(active), 2 * m, 2))
         unit[np.arange(len(active)), 2 * (sub.start_level - 1), 0] = 1.0
         unit[np.arange(len(active)), 2 * (sub.after_breeding_level - 1), 1] = 1.0
         with np.errstate(all="ignore"):
-            sol, rows, _ = factor_solve(here, here.entries(parts), rhs, unit)
+            sol, rows, _ = factor_solve(layout, layout.entries(parts, active), rhs, unit, active)
         v = deinterleave(sol[..., 0]).reshape(len(active), -1)
         u = deinterleave(sol[..., 1]).reshape(len(active), -1)
         bad = ~(np.isfinite(v).all(-1) & np.isfinite(u).all(-1))
@@ -355,6 +357,15 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
                 extra[c] = 0.0
     return BatchSolution(values, out_priority, start, marginal, extra, kills, residual, rounds,
                          tuple(failures))
+
+
+def _take_targets(tg: Targets, index: np.ndarray) -> Targets:
+    """The cells ``index`` of batched targets (they do not depend on the policy)."""
+    def part(s: Split) -> Split:
+        return Split(s.low[index], s.weight[index])
+    return Targets(part(tg.stay), part(tg.capture), part(tg.injury),
+                   np.asarray(tg.recover_stay)[index], tg.recover_capture[index],
+                   tg.survive_handling[index], tg.die_handling[index])
 
 
 def _improve(grid: Grid, cv, incumbent: np.ndarray, attack_prob: np.ndarray

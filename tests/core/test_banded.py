@@ -120,16 +120,23 @@ def test_bandwidths_are_those_of_the_matrix(batch):
 
 
 def test_layout_of_a_subset_assembles_the_same_cells(batch):
-    """Taking cells from the layout gives the same band storage as the full
-    batch for those cells (the policy iteration drops finished cells)."""
+    """Assembling some cells of the layout gives the same band storage as the
+    full batch for those cells (the policy iteration drops finished cells),
+    and so does solving them (common practice: cover the index paths)."""
     _, _, parts, layout, band, breed, _ = batch
     keep = np.array([3, 1])
     sub_parts = [type(o)(o.prob[keep], o.split, o.healthy_share, o.prey, o.captured, o.days)
                  for o in parts]
-    sub = layout.take(keep)
-    sub_band, sub_breed = sub.assemble(sub_parts), sub.breed_chance(sub_parts)
+    sub_band = layout.assemble(sub_parts, keep)
+    sub_breed = layout.breed_chance(sub_parts, keep)
     np.testing.assert_array_equal(sub_band, band[keep])
     np.testing.assert_array_equal(sub_breed, breed[keep])
+    rhs = np.ones((len(keep), band.shape[1], 1))
+    x_sub = factor_solve(layout, layout.entries(sub_parts, keep), rhs, rhs, keep, chunk=1)
+    x_all = factor_solve(layout, layout.entries(parts), np.ones((*band.shape[:2], 1)),
+                         np.ones((*band.shape[:2], 1)))
+    np.testing.assert_array_equal(x_sub[0], x_all[0][keep])
+    np.testing.assert_array_equal(x_sub[1], x_all[1][keep])
 
 
 def test_band_solves_equal_scipy_dense_solves(batch):
@@ -160,7 +167,7 @@ def test_a_singular_system_is_flagged():
     n, kl, ku = 6, 1, 2
     rows = 2 * kl + ku + 1
     # I - P with P = 1 at (3, 3) only: column 3 of I - P is zero
-    layout = BandLayout(kl, ku, n, [], np.zeros((1, 1), dtype=int),
+    layout = BandLayout(kl, ku, n, np.zeros((1, 0)), np.zeros((1, 0), dtype=int),
                         np.array([[3 * rows + kl + ku]]), [])
     x, _, info = factor_solve(layout, np.array([[-1.0]]), np.ones((1, n, 1)),
                               np.ones((1, n, 1)))
