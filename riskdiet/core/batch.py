@@ -3,11 +3,12 @@
 Map cells and uncertainty draws differ only in their numbers, not in the shape
 of their state space, so their policy iterations run side by side: every
 per-cell array carries a leading batch axis (:func:`riskdiet.core.grid.stack_grids`),
-each round evaluates all unfinished cells with one batched dense LU
-factorisation (LAPACK getrf), and a cell
-leaves the batch as soon as its policy repeats. The same factors then give
-the marginal values (envelope theorem) and the long-run kill rates, so every
-cell costs about one factorisation per policy-iteration round.
+each round evaluates every unfinished cell with one banded LU factorisation of
+its I - P (:mod:`riskdiet.core.banded`, LAPACK gbtrf), and a cell leaves the
+batch as soon as its policy repeats. The same factors give V, its complement U
+and the two rows of (I - P)^-1 behind the marginal values (envelope theorem)
+and the long-run kill rates, so every cell costs one factorisation per
+policy-iteration round.
 
 The equations are those of :mod:`riskdiet.core.solver` and :mod:`riskdiet.core.chain`
 (MODEL.md sections 3-5), written once in :mod:`riskdiet.core.grid` and
@@ -29,7 +30,6 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg.lapack import dgetrf as _getrf
 from threadpoolctl import threadpool_limits
 
 from riskdiet.core.banded import band_layout, deinterleave, factor_solve, interleave
@@ -43,7 +43,6 @@ from riskdiet.core.choice import (
 )
 from riskdiet.core.grid import (
     Grid,
-    Outcome,
     Split,
     Targets,
     attack_probabilities,
@@ -92,9 +91,9 @@ NEVER_DIES = 1e-9
 
 SUB_BATCH = 128
 """Cells solved together. Larger batches spread numpy's per-call overhead over more
-cells; beyond about 128 cells of 200 unknowns the dense systems stop fitting in
-cache (measured with benchmarks/map.py: 64 cells 23 s, 128 cells 16.5-17.4 s, 200
-cells 18.5-20 s for the 200 x 200 map on 2 workers)."""
+cells; with banded storage placed a few cells at a time the size matters little
+(benchmark sample of 512 map cells: 32, 64, 128 and 512 cells per batch within the
+noise of a busy machine, 2.3-2.8 ms a cell)."""
 
 
 @dataclass(frozen=True)
@@ -138,79 +137,6 @@ class BatchSolution:
     def failed(self) -> np.ndarray:
         """Indices of the cells whose solve failed."""
         return np.array([i for i, f in enumerate(self.failures) if f is not None], dtype=int)
-
-
-def dense_system(grid: Grid, parts: list[Outcome], fortran: bool = False
-                 ) -> tuple[np.ndarray, np.ndarray]:
-    """Batched I - P among living states and the one-step breeding chance.
-
-    States are ordered condition-major (k m + j - 1), as in
-    :func:`riskdiet.core.solver.transition_matrix`.
-
-    Parameters
-    ----------
-    fortran : bool
-        Lay each matrix out column by column (``system[b]`` is then
-        Fortran-contiguous), as LAPACK wants it, so that factorising needs no copy.
-
-    Returns
-    -------
-    system : ndarray, shape (B, 2m, 2m)
-        I - P of each cell.
-    breed : ndarray, shape (B, 2m)
-    """
-    m = grid.n_living
-    size = 2 * m
-    batch = parts[0].prob.shape[0]
-    cell = np.arange(batch)[:, None, None, None]
-    state = (np.arange(2)[:, None] * m + np.arange(m)[None, :])[None, :, :, None]
-    idx, vals, b_idx, b_vals = [], [], [], []
-    for o in parts:
-        row = np.broadcast_to(cell * size + state, o.prob.shape)
-        for level, wt in ((o.split.low, 1.0 - o.split.weight),
-                          (o.split.low + 1, o.split.weight)):
-            level = np.broadcast_to(level, o.prob.shape)
-            alive = (level >= 1) & (level < grid.top)
-            top = level >= grid.top
-            mass = o.prob * wt
-            healthy = mass * o.healthy_share
-            for cond, val in ((0, healthy), (1, mass - healthy)):
-                target = cond * m + level - 1
-                if fortran:  # entry (row, target) stored at [cell, target, row]
-                    flat = (cell * size + target) * size + state
-                else:
-                    flat = row * size + target
-                idx.append(np.broadcast_to(flat, o.prob.shape)[alive])
-                vals.append(val[alive])
-            b_idx.append(row[top])
-            b_vals.append(mass[top])
-    # minus the chain directly, then the identity: one pass over the dense arrays
-    system = np.bincount(np.concatenate(idx), -np.concatenate(vals),
-                         minlength=batch * size * size).reshape(batch, size, size)
-    system.reshape(batch, size * size)[:, :: size + 1] += 1.0
-    if fortran:
-        system = system.transpose(0, 2, 1)
-    breed = np.bincount(np.concatenate(b_idx), np.concatenate(b_vals),
-                        minlength=batch * size).reshape(batch, size)
-    return system, breed
-
-
-def _lu_factor(system: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """LU factors of each matrix of a stack, in place (LAPACK getrf).
-
-    The same factors as :func:`scipy.linalg.lu_factor`, whose batch support loops
-    over the stack with more per-matrix overhead than this loop.
-    """
-    pivots = np.empty(system.shape[:2], dtype=np.int32)
-    for i in range(system.shape[0]):
-        # a Fortran-contiguous matrix is factorised where it lies; others are copied
-        lu, piv, info = _getrf(system[i], overwrite_a=True)
-        if info < 0:  # pragma: no cover - an argument error cannot happen here
-            raise ValueError(f"getrf argument {-info} invalid")
-        if not np.shares_memory(lu, system[i]):
-            system[i] = lu
-        pivots[i] = piv
-    return system, pivots
 
 
 def solve_breeding_batch(grid: Grid, extra_direct=None,
