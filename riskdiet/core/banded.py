@@ -171,19 +171,41 @@ def band_layout(grid: Grid, parts: list[Outcome]) -> BandLayout:
     parts : list of Outcome
         Outcomes of one step under any policy: only their splits and
         condition shares (which do not depend on the policy) are used.
+
+    Notes
+    -----
+    Cells whose outcomes land on the same levels with the same weights (all
+    cells of a map that changes chances only, such as hunting ability or
+    encounters) have the same layout, which is worked out once. They are
+    grouped by the bytes of their splits and shares (exact equality).
     """
+    batch = parts[0].prob.shape[0]
+    fixed = [np.broadcast_to(x, o.prob.shape) for o in parts
+             for x in (o.split.low, o.split.weight, o.healthy_share)]
+    seen: dict[bytes, int] = {}
+    which = np.array([seen.setdefault(b"".join(np.ascontiguousarray(x[b]).tobytes()
+                                               for x in fixed), len(seen))
+                      for b in range(batch)])
+    first = np.unique(which, return_index=True)[1]
+    kl, ku, share, slot, where, breed = _layout(grid, [
+        (o.split.low[first], o.split.weight[first], o.healthy_share[first],
+         (len(first), *o.prob.shape[1:])) for o in parts])
+    return BandLayout(kl, ku, 2 * grid.n_living, share[which], slot[which], where[which],
+                      [b[which] for b in breed])
+
+
+def _layout(grid: Grid, parts: list[tuple[np.ndarray, np.ndarray, np.ndarray, tuple]]):
+    """:func:`band_layout` for cells of distinct structure: (low, weight, healthy, shape) each."""
     m, top = grid.n_living, grid.top
     size = 2 * m
-    batch = parts[0].prob.shape[0]
+    batch = parts[0][3][0]
     state = 2 * np.arange(m)[None, None, :, None] + np.arange(2)[None, :, None, None]
     pieces = []
-    for o in parts:
-        shape = o.prob.shape
+    for low, weight, healthy_share, shape in parts:
         row = np.broadcast_to(state, shape)
         cols, shares, breed = [], [], np.zeros(shape)
-        healthy = np.broadcast_to(o.healthy_share, shape)
-        for level, wt in ((o.split.low, 1.0 - o.split.weight),
-                          (o.split.low + 1, o.split.weight)):
+        healthy = np.broadcast_to(healthy_share, shape)
+        for level, wt in ((low, 1.0 - weight), (low + 1, weight)):
             level = np.broadcast_to(level, shape)
             alive = (level >= 1) & (level < top)
             breed = breed + np.where(level >= top, wt, 0.0)
@@ -204,26 +226,18 @@ def band_layout(grid: Grid, parts: list[Outcome]) -> BandLayout:
     # flat position in the C-ordered (2m, rows) block: column-major band storage
     position = np.concatenate([np.moveaxis(col * rows + (kl + ku) + row - col, 1, 0)
                                .reshape(batch, -1) for row, col, _, _ in pieces], axis=1)
-    # cells whose outcomes land on the same levels (e.g. all cells of a map that changes
-    # chances only) share their numbering of the entries: number each structure once
-    # (grouped by their bytes: numpy.unique along an axis sorts whole rows, far slower)
-    seen: dict[bytes, int] = {}
-    which = np.array([seen.setdefault(position[b].tobytes(), len(seen))
-                      for b in range(batch)])
     slots, wheres = [], []
-    for first in np.unique(which, return_index=True)[1]:
-        cell_positions = position[first]
+    for cell_positions in position:
         used = np.zeros(block, dtype=bool)
         used[cell_positions] = True
         slots.append(np.cumsum(used)[cell_positions] - 1)
         wheres.append(np.flatnonzero(used))
     width = max(len(w) for w in wheres)
-    where = np.full((len(wheres), width), block)  # spare element after the block
+    where = np.full((batch, width), block)  # spare element after the block
     for k, w in enumerate(wheres):
         where[k, :len(w)] = w
     share = np.concatenate([np.moveaxis(p[2], 1, 0).reshape(batch, -1) for p in pieces], axis=1)
-    return BandLayout(kl, ku, size, share, np.asarray(slots)[which], where[which],
-                      [p[3] for p in pieces])
+    return kl, ku, share, np.asarray(slots), where, [p[3] for p in pieces]
 
 
 def factor_solve(layout: BandLayout, entries: np.ndarray, rhs: np.ndarray,
