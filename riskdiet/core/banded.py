@@ -24,7 +24,7 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.linalg.lapack import dgbtrf, dgbtrs
@@ -94,6 +94,7 @@ class BandLayout:
     slot: np.ndarray
     position: np.ndarray
     breed: list[np.ndarray]
+    workspace: list[np.ndarray] = field(default_factory=list, repr=False, compare=False)
 
     @property
     def rows(self) -> int:
@@ -119,20 +120,33 @@ class BandLayout:
         ndarray, shape (C, S)
             Entry ``s`` belongs at ``position[:, s]`` of the band storage.
         """
-        share = self.share if cells is None else self.share[cells]
-        slot = self.slot if cells is None else self.slot[cells]
-        count, width = slot.shape[0], self.position.shape[1]
-        vals = np.empty(share.shape)
+        count = self.slot.shape[0] if cells is None else len(cells)
+        width = self.position.shape[1]
+        # into buffers kept with the layout: fresh arrays of this size would each cost
+        # page faults on every round (see DEVELOPERS.md, Benchmarks)
+        vals, index = self._buffers()
+        vals, index = vals[:count], index[:count]
+        if cells is None:
+            vals[...] = self.share
+            index[...] = self.slot
+        else:
+            np.take(self.share, cells, axis=0, out=vals)
+            np.take(self.slot, cells, axis=0, out=index)
         at = 0
         for o in parts:
             step = 4 * o.prob[0].size
-            vals[:, at:at + step].reshape(count, 4, *o.prob.shape[1:])[...] = o.prob[:, None]
+            vals[:, at:at + step].reshape(count, 4, *o.prob.shape[1:])[...] *= o.prob[:, None]
             at += step
-        np.multiply(vals, share, out=vals)
         np.negative(vals, out=vals)
-        index = slot + (np.arange(count) * width)[:, None]
+        index += (np.arange(count) * width)[:, None]
         return np.bincount(index.reshape(-1), vals.reshape(-1),
                            minlength=count * width).reshape(count, width)
+
+    def _buffers(self) -> tuple[np.ndarray, np.ndarray]:
+        if not self.workspace:
+            self.workspace.append(np.empty(self.share.shape))
+            self.workspace.append(np.empty(self.slot.shape, dtype=self.slot.dtype))
+        return self.workspace[0], self.workspace[1]
 
     def breed_chance(self, parts: list[Outcome], cells: np.ndarray | None = None) -> np.ndarray:
         """Level-major one-step chance of reaching breeding, shape (C, 2 m)."""
