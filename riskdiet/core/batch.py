@@ -189,7 +189,9 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
     values[..., top] = 1.0
     comps = np.ones((batch, 2, top + 1))
     comps[..., top] = 0.0
-    priority = default_sets(grid, targets(grid))
+    all_targets = targets(grid)
+    priority = default_sets(grid, all_targets)
+    attack_prob = attack_probabilities(grid.encounter_prob, priority)
     out_priority = np.zeros((batch, 2, m, n_prey), dtype=np.int8)
     start = np.zeros(batch)
     marginal = np.zeros(batch)
@@ -200,11 +202,9 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
     failures: list[str | None] = [None] * batch
     active = np.arange(batch)
     layout = None
-    all_targets = targets(grid)
     for iteration in range(1, max_iterations + 1):
         sub = take_cells(grid, active)
         tg = _take_targets(all_targets, active)
-        attack_prob = attack_probabilities(sub.encounter_prob, priority)
         parts = outcomes(sub, tg, attack_prob)
         if layout is None:  # where the entries go does not depend on the policy
             layout = band_layout(sub, parts)
@@ -229,7 +229,8 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
         cap = (len(active), n_prey, 2, top + 1)
         cv = choice_values(sub, tg, full, full_u, np.broadcast_to(full[:, None], cap),
                            np.broadcast_to(full_u[:, None], cap))
-        improved, switched, greedy_v, greedy_u = _improve(sub, cv, priority, attack_prob)
+        improved, improved_prob, switched, greedy_v, greedy_u = _improve(sub, cv, priority,
+                                                                         attack_prob)
         done = ~switched.reshape(len(active), -1).any(axis=1) | bad | inexact
         if iteration == max_iterations:
             for c in active[~done]:
@@ -272,6 +273,7 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
                                            full[keep, 0, part.start_level],
                                            full_u[keep, 0, part.after_breeding_level])
         priority = improved[~done]
+        attack_prob = improved_prob[~done]
         active = active[~done]
         if active.size == 0:
             break
@@ -304,19 +306,25 @@ def _improve(grid: Grid, cv, incumbent: np.ndarray, attack_prob: np.ndarray
 
     Returns
     -------
-    policy, switched
+    policy : ndarray of int, shape (B, 2, m, P)
         As :func:`riskdiet.core.choice.keep_unless_better`.
+    attack_prob : ndarray, shape (B, 2, m, P)
+        The policy's attack chances: each state's are those of its set
+        (:func:`riskdiet.core.grid.attack_probabilities` works state by state).
+    switched : ndarray of bool, shape (B, 2, m)
     greedy_v, greedy_u : ndarray, shape (B, 2, m)
         T V and its complement: the one-step values of the greedy set.
     """
     greedy = greedy_sets(cv)
-    gv, gu, _ = set_values(grid, cv, greedy)
+    gv, gu, greedy_prob = set_values(grid, cv, greedy)
     mu = grid.mortality[..., :, None]
     iv = one_step_value(grid, cv.ignore_v, cv.attack_v, attack_prob)
     iu = mu + (1.0 - mu) * (cv.ignore_u
                             + (attack_prob * (cv.attack_u - cv.ignore_u[..., None])).sum(-1))
     switched = better(gv, gu, iv, iu) & (greedy != incumbent).any(-1)
-    return np.where(switched[..., None], greedy, incumbent), switched, gv, gu
+    keep = switched[..., None]
+    return (np.where(keep, greedy, incumbent), np.where(keep, greedy_prob, attack_prob),
+            switched, gv, gu)
 
 
 def _relative_residual(tv: np.ndarray, tu: np.ndarray, v: np.ndarray, u: np.ndarray
