@@ -216,10 +216,12 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
         unit[np.arange(len(active)), 2 * (sub.start_level - 1), 0] = 1.0
         unit[np.arange(len(active)), 2 * (sub.after_breeding_level - 1), 1] = 1.0
         with np.errstate(all="ignore"):
-            sol, rows, _ = factor_solve(layout, layout.entries(parts, active), rhs, unit, active)
+            sol, rows, info = factor_solve(layout, layout.entries(parts, active), rhs, unit,
+                                           active)
         v = deinterleave(sol[..., 0]).reshape(len(active), -1)
         u = deinterleave(sol[..., 1]).reshape(len(active), -1)
-        bad = ~(np.isfinite(v).all(-1) & np.isfinite(u).all(-1))
+        # an exactly zero pivot (info > 0) leaves infinities or NaN; both say singular
+        bad = (info > 0) | ~(np.isfinite(v).all(-1) & np.isfinite(u).all(-1))
         worst = np.where(bad, np.inf, np.abs(v + u - 1.0).max(-1, initial=0.0))
         inexact = ~bad & ((worst > SUM_LIMIT) | (v.min(-1, initial=0.0) < -SUM_LIMIT)
                           | (u.min(-1, initial=0.0) < -SUM_LIMIT))
