@@ -131,8 +131,9 @@ class BandLayout:
             vals[...] = self.share
             index[...] = self.slot
         else:
-            np.take(self.share, cells, axis=0, out=vals)
-            np.take(self.slot, cells, axis=0, out=index)
+            # mode="clip": the indices are valid, and "raise" would copy through a temporary
+            np.take(self.share, cells, axis=0, out=vals, mode="clip")
+            np.take(self.slot, cells, axis=0, out=index, mode="clip")
         at = 0
         for o in parts:
             step = 4 * o.prob[0].size
