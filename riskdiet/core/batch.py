@@ -3,11 +3,12 @@
 Map cells and uncertainty draws differ only in their numbers, not in the shape
 of their state space, so their policy iterations run side by side: every
 per-cell array carries a leading batch axis (:func:`riskdiet.core.grid.stack_grids`),
-each round evaluates all unfinished cells with one batched dense LU
-factorisation (LAPACK getrf), and a cell
-leaves the batch as soon as its policy repeats. The same factors then give
-the marginal values (envelope theorem) and the long-run kill rates, so every
-cell costs about one factorisation per policy-iteration round.
+each round evaluates every unfinished cell with one banded LU factorisation of
+its I - P (:mod:`riskdiet.core.banded`, LAPACK gbtrf), and a cell leaves the
+batch as soon as its policy repeats. The same factors give V, its complement U
+and the two rows of (I - P)^-1 behind the marginal values (envelope theorem)
+and the long-run kill rates, so every cell costs one factorisation per
+policy-iteration round.
 
 The equations are those of :mod:`riskdiet.core.solver` and :mod:`riskdiet.core.chain`
 (MODEL.md sections 3-5), written once in :mod:`riskdiet.core.grid` and
@@ -29,19 +30,21 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg as sla
-from scipy.linalg.lapack import dgetrf as _getrf
 from threadpoolctl import threadpool_limits
 
+from riskdiet.core.banded import band_layout, deinterleave, factor_solve, interleave
 from riskdiet.core.choice import (
+    better,
     choice_values,
     default_sets,
-    keep_unless_better,
-    relative_residual,
+    greedy_sets,
+    one_step_value,
+    set_values,
 )
 from riskdiet.core.grid import (
     Grid,
-    Outcome,
+    Split,
+    Targets,
     attack_probabilities,
     death_chances,
     kill_probabilities,
@@ -88,9 +91,9 @@ NEVER_DIES = 1e-9
 
 SUB_BATCH = 128
 """Cells solved together. Larger batches spread numpy's per-call overhead over more
-cells; beyond about 128 cells of 200 unknowns the dense systems stop fitting in
-cache (measured with benchmarks/map.py: 64 cells 23 s, 128 cells 16.5-17.4 s, 200
-cells 18.5-20 s for the 200 x 200 map on 2 workers)."""
+cells; with banded storage placed a few cells at a time the size matters little
+(benchmark sample of 512 map cells: 32, 64, 128 and 512 cells per batch within the
+noise of a busy machine, 2.3-2.8 ms a cell)."""
 
 
 @dataclass(frozen=True)
@@ -134,79 +137,6 @@ class BatchSolution:
     def failed(self) -> np.ndarray:
         """Indices of the cells whose solve failed."""
         return np.array([i for i, f in enumerate(self.failures) if f is not None], dtype=int)
-
-
-def dense_system(grid: Grid, parts: list[Outcome], fortran: bool = False
-                 ) -> tuple[np.ndarray, np.ndarray]:
-    """Batched I - P among living states and the one-step breeding chance.
-
-    States are ordered condition-major (k m + j - 1), as in
-    :func:`riskdiet.core.solver.transition_matrix`.
-
-    Parameters
-    ----------
-    fortran : bool
-        Lay each matrix out column by column (``system[b]`` is then
-        Fortran-contiguous), as LAPACK wants it, so that factorising needs no copy.
-
-    Returns
-    -------
-    system : ndarray, shape (B, 2m, 2m)
-        I - P of each cell.
-    breed : ndarray, shape (B, 2m)
-    """
-    m = grid.n_living
-    size = 2 * m
-    batch = parts[0].prob.shape[0]
-    cell = np.arange(batch)[:, None, None, None]
-    state = (np.arange(2)[:, None] * m + np.arange(m)[None, :])[None, :, :, None]
-    idx, vals, b_idx, b_vals = [], [], [], []
-    for o in parts:
-        row = np.broadcast_to(cell * size + state, o.prob.shape)
-        for level, wt in ((o.split.low, 1.0 - o.split.weight),
-                          (o.split.low + 1, o.split.weight)):
-            level = np.broadcast_to(level, o.prob.shape)
-            alive = (level >= 1) & (level < grid.top)
-            top = level >= grid.top
-            mass = o.prob * wt
-            healthy = mass * o.healthy_share
-            for cond, val in ((0, healthy), (1, mass - healthy)):
-                target = cond * m + level - 1
-                if fortran:  # entry (row, target) stored at [cell, target, row]
-                    flat = (cell * size + target) * size + state
-                else:
-                    flat = row * size + target
-                idx.append(np.broadcast_to(flat, o.prob.shape)[alive])
-                vals.append(val[alive])
-            b_idx.append(row[top])
-            b_vals.append(mass[top])
-    # minus the chain directly, then the identity: one pass over the dense arrays
-    system = np.bincount(np.concatenate(idx), -np.concatenate(vals),
-                         minlength=batch * size * size).reshape(batch, size, size)
-    system.reshape(batch, size * size)[:, :: size + 1] += 1.0
-    if fortran:
-        system = system.transpose(0, 2, 1)
-    breed = np.bincount(np.concatenate(b_idx), np.concatenate(b_vals),
-                        minlength=batch * size).reshape(batch, size)
-    return system, breed
-
-
-def _lu_factor(system: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """LU factors of each matrix of a stack, in place (LAPACK getrf).
-
-    The same factors as :func:`scipy.linalg.lu_factor`, whose batch support loops
-    over the stack with more per-matrix overhead than this loop.
-    """
-    pivots = np.empty(system.shape[:2], dtype=np.int32)
-    for i in range(system.shape[0]):
-        # a Fortran-contiguous matrix is factorised where it lies; others are copied
-        lu, piv, info = _getrf(system[i], overwrite_a=True)
-        if info < 0:  # pragma: no cover - an argument error cannot happen here
-            raise ValueError(f"getrf argument {-info} invalid")
-        if not np.shares_memory(lu, system[i]):
-            system[i] = lu
-        pivots[i] = piv
-    return system, pivots
 
 
 def solve_breeding_batch(grid: Grid, extra_direct=None,
@@ -259,7 +189,9 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
     values[..., top] = 1.0
     comps = np.ones((batch, 2, top + 1))
     comps[..., top] = 0.0
-    priority = default_sets(grid, targets(grid))
+    all_targets = targets(grid)
+    priority = default_sets(grid, all_targets)
+    attack_prob = attack_probabilities(grid.encounter_prob, priority)
     out_priority = np.zeros((batch, 2, m, n_prey), dtype=np.int8)
     start = np.zeros(batch)
     marginal = np.zeros(batch)
@@ -269,19 +201,27 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
     rounds = np.zeros(batch, dtype=np.int64)
     failures: list[str | None] = [None] * batch
     active = np.arange(batch)
+    layout = None
     for iteration in range(1, max_iterations + 1):
         sub = take_cells(grid, active)
-        tg = targets(sub)
-        attack_prob = attack_probabilities(sub.encounter_prob, priority)
+        tg = _take_targets(all_targets, active)
         parts = outcomes(sub, tg, attack_prob)
-        system, breed = dense_system(sub, parts, fortran=True)
-        death = death_chances(sub, tg, attack_prob, parts).sum(-3).reshape(len(active), -1)
-        factors = _lu_factor(system)
-        rhs = np.stack([breed, death], axis=-1)
+        if layout is None:  # where the entries go does not depend on the policy
+            layout = band_layout(sub, parts)
+        death = death_chances(sub, tg, attack_prob, parts).sum(-3)
+        rhs = np.stack([layout.breed_chance(parts, active), interleave(death)], axis=-1)
+        # rows of (I - P)^-1 for (j0, healthy) and (j_rho, healthy), level-major; they are
+        # needed only once the policy has settled, but cost little while the factors are at hand
+        unit = np.zeros((len(active), 2 * m, 2))
+        unit[np.arange(len(active)), 2 * (sub.start_level - 1), 0] = 1.0
+        unit[np.arange(len(active)), 2 * (sub.after_breeding_level - 1), 1] = 1.0
         with np.errstate(all="ignore"):
-            sol = sla.lu_solve(factors, rhs, check_finite=False)
-        v, u = sol[..., 0], sol[..., 1]
-        bad = ~(np.isfinite(v).all(-1) & np.isfinite(u).all(-1))
+            sol, rows, info = factor_solve(layout, layout.entries(parts, active), rhs, unit,
+                                           active)
+        v = deinterleave(sol[..., 0]).reshape(len(active), -1)
+        u = deinterleave(sol[..., 1]).reshape(len(active), -1)
+        # an exactly zero pivot (info > 0) leaves infinities or NaN; both say singular
+        bad = (info > 0) | ~(np.isfinite(v).all(-1) & np.isfinite(u).all(-1))
         worst = np.where(bad, np.inf, np.abs(v + u - 1.0).max(-1, initial=0.0))
         inexact = ~bad & ((worst > SUM_LIMIT) | (v.min(-1, initial=0.0) < -SUM_LIMIT)
                           | (u.min(-1, initial=0.0) < -SUM_LIMIT))
@@ -291,7 +231,8 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
         cap = (len(active), n_prey, 2, top + 1)
         cv = choice_values(sub, tg, full, full_u, np.broadcast_to(full[:, None], cap),
                            np.broadcast_to(full_u[:, None], cap))
-        improved, switched = keep_unless_better(sub, cv, priority)
+        improved, improved_prob, switched, greedy_v, greedy_u = _improve(sub, cv, priority,
+                                                                         attack_prob)
         done = ~switched.reshape(len(active), -1).any(axis=1) | bad | inexact
         if iteration == max_iterations:
             for c in active[~done]:
@@ -310,27 +251,20 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
             rounds[cells] = iteration
             out_priority[cells] = priority[keep]
             part = take_cells(sub, keep)
-            cv_keep = type(cv)(*(getattr(cv, f)[keep] for f in cv.__dataclass_fields__))
-            res = relative_residual(part, cv_keep, full[keep][..., 1:top],
-                                    full_u[keep][..., 1:top]).reshape(len(keep), -1).max(axis=1)
+            res = _relative_residual(greedy_v[keep], greedy_u[keep], full[keep][..., 1:top],
+                                     full_u[keep][..., 1:top]).reshape(len(keep), -1).max(axis=1)
             residual[cells] = res
             for c, r in zip(cells, res, strict=True):
                 if failures[c] is None and not (np.isfinite(r) and r <= RESIDUAL_LIMIT):
                     failures[c] = (f"the optimality check failed: the Bellman residual "
                                    f"relative to the values is {r:.1e}, above the accepted "
                                    f"{RESIDUAL_LIMIT:.0e}")
-            piece = (factors[0][keep], factors[1][keep])
-            start_idx = part.start_level - 1
             alive = (1.0 - part.mortality)[..., :, None]
             ap = attack_prob[keep]
             direct = alive * (ap * cv.d_attack[keep]
                               * part.capture_slope[..., :, None, :]).sum(-1)
-            unit = np.zeros((len(keep), 2 * m, 2))
-            unit[np.arange(len(keep)), start_idx, 0] = 1.0
-            unit[np.arange(len(keep)), part.after_breeding_level - 1, 1] = 1.0
-            with np.errstate(all="ignore"):
-                rows = sla.lu_solve(piece, unit, trans=1, check_finite=False)
-            from_start, from_restart = rows[..., 0], rows[..., 1]
+            from_start = deinterleave(rows[keep, :, 0]).reshape(len(keep), -1)
+            from_restart = deinterleave(rows[keep, :, 1]).reshape(len(keep), -1)
             start[cells] = full[keep, 0, part.start_level]
             marginal[cells] = (from_start * direct.reshape(len(keep), -1)).sum(-1)
             if extra_direct is not None:
@@ -341,6 +275,7 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
                                            full[keep, 0, part.start_level],
                                            full_u[keep, 0, part.after_breeding_level])
         priority = improved[~done]
+        attack_prob = improved_prob[~done]
         active = active[~done]
         if active.size == 0:
             break
@@ -352,6 +287,53 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
                 extra[c] = 0.0
     return BatchSolution(values, out_priority, start, marginal, extra, kills, residual, rounds,
                          tuple(failures))
+
+
+def _take_targets(tg: Targets, index: np.ndarray) -> Targets:
+    """The cells ``index`` of batched targets (they do not depend on the policy)."""
+    def part(s: Split) -> Split:
+        return Split(s.low[index], s.weight[index])
+    return Targets(part(tg.stay), part(tg.capture), part(tg.injury),
+                   np.asarray(tg.recover_stay)[index], tg.recover_capture[index],
+                   tg.survive_handling[index], tg.die_handling[index])
+
+
+def _improve(grid: Grid, cv, incumbent: np.ndarray, attack_prob: np.ndarray
+             ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """:func:`riskdiet.core.choice.keep_unless_better`, reusing what the round already has.
+
+    The incumbent's attack chances are those its outcomes were built from, and
+    the greedy set's one-step values are also T V of the Bellman residual, so
+    neither is computed twice.
+
+    Returns
+    -------
+    policy : ndarray of int, shape (B, 2, m, P)
+        As :func:`riskdiet.core.choice.keep_unless_better`.
+    attack_prob : ndarray, shape (B, 2, m, P)
+        The policy's attack chances: each state's are those of its set
+        (:func:`riskdiet.core.grid.attack_probabilities` works state by state).
+    switched : ndarray of bool, shape (B, 2, m)
+    greedy_v, greedy_u : ndarray, shape (B, 2, m)
+        T V and its complement: the one-step values of the greedy set.
+    """
+    greedy = greedy_sets(cv)
+    gv, gu, greedy_prob = set_values(grid, cv, greedy)
+    mu = grid.mortality[..., :, None]
+    iv = one_step_value(grid, cv.ignore_v, cv.attack_v, attack_prob)
+    iu = mu + (1.0 - mu) * (cv.ignore_u
+                            + (attack_prob * (cv.attack_u - cv.ignore_u[..., None])).sum(-1))
+    switched = better(gv, gu, iv, iu) & (greedy != incumbent).any(-1)
+    keep = switched[..., None]
+    return (np.where(keep, greedy, incumbent), np.where(keep, greedy_prob, attack_prob),
+            switched, gv, gu)
+
+
+def _relative_residual(tv: np.ndarray, tu: np.ndarray, v: np.ndarray, u: np.ndarray
+                       ) -> np.ndarray:
+    """:func:`riskdiet.core.choice.relative_residual` from T V and its complement."""
+    diff = np.where(v > 0.5, np.abs(tu - u), np.abs(tv - v))
+    return diff / np.maximum(np.maximum(v, u), 1e-300)
 
 
 def _kill_rates(grid: Grid, attack_prob: np.ndarray, from_start: np.ndarray,

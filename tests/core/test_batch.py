@@ -214,3 +214,27 @@ def test_overlapping_solves_in_threads_restore_the_blas_thread_count(cells):
     after = blas_threads()
     threadpool_limits(limits=max(before))  # repair the process for the tests that follow
     assert after == before
+
+
+def test_a_cell_with_an_exactly_zero_pivot_fails_as_singular(cells, monkeypatch):
+    """When LAPACK's banded LU reports an exactly zero pivot for a cell (gbtrf
+    info > 0, LAPACK Users' Guide), that cell fails as singular with no numbers
+    (MODEL.md section 3: a singular system is an error, never a number shown as
+    if valid) while the other cells of the batch are solved as before. No valid
+    study is singular (c > 0 ends every policy in absorption), so the status is
+    forced here."""
+    grids, singles = cells
+    real = batch.factor_solve
+
+    def zero_pivot_in_first_cell(layout, entries, rhs, rhs_t, cells=None, **kwargs):
+        x, y, info = real(layout, entries, rhs, rhs_t, cells, **kwargs)
+        info = info.copy()
+        info[(np.arange(len(info)) if cells is None else np.asarray(cells)) == 0] = 1
+        return x, y, info
+
+    monkeypatch.setattr(batch, "factor_solve", zero_pivot_in_first_cell)
+    result = batch.solve_breeding_batch(stack_grids(grids[:3]))
+    assert "singular" in result.failures[0]
+    assert result.fitness_at_start[0] == 0.0 and (result.kills_per_day[0] == 0.0).all()
+    assert result.failures[1] is None and result.failures[2] is None
+    assert result.fitness_at_start[1] == pytest.approx(singles[1].fitness_at_start, rel=1e-12)
