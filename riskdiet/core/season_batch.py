@@ -6,7 +6,23 @@ backward induction (MODEL.md section 3) and the forward propagation of its
 kills and survival (section 5) over a stacked grid
 (:func:`riskdiet.core.grid.stack_grids`) at once. Each cell equals
 :func:`riskdiet.core.solver.solve_season` followed by
-:func:`riskdiet.core.chain.season_outlook` of its own grid.
+:func:`riskdiet.core.chain.season_outlook` of its own grid: the backward step
+does the single solver's arithmetic in the single solver's order (so values,
+complements, derivatives and policies agree bit for bit), only arranged for
+speed:
+
+* the value V, its complement U and the derivative in hunting ability are
+  interpolated together, through one gather per day whose flat indices
+  (day, cell, quantity, condition, level) are built once per batch; days from
+  the end of the season on hold the terminal values, so a capture step ending
+  on or after day T needs no clipping of the day;
+* the greedy set is ranked by pairwise comparisons
+  (:mod:`riskdiet.core.ranked_sets`) and its attack probabilities are looked
+  up in a table of every ranked set, computed once per cell;
+* the default set's attack probabilities are computed once, and the values of
+  the chosen set are those of the greedy or the default set already computed;
+* the forward propagation scatters each day's outcome masses with one
+  ``bincount`` over destination indices built once per batch.
 
 References
 ----------
@@ -22,16 +38,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.core.choice import (
-    choice_values,
-    default_sets,
-    keep_unless_better,
-    set_values,
-    step_values,
-)
-from riskdiet.core.grid import Grid, attack_probabilities, kill_probabilities, outcomes, targets
+from riskdiet.core.choice import better, default_sets
+from riskdiet.core.grid import Grid, Targets, attack_probabilities, take_cells, targets
+from riskdiet.core.ranked_sets import SetTable, pairwise_ranks, set_table
+from riskdiet.core.season_plan import QUANTITIES, S, U, V, backward_step, forward_moves
 from riskdiet.core.solver import SUM_LIMIT
 from riskdiet.errors import RiskdietError
+
+CHUNK = 32
+"""Cells per pass: the day's working arrays then stay in the processor's cache."""
+
 
 
 @dataclass(frozen=True)
@@ -65,19 +81,15 @@ class SeasonBatch:
     failures: tuple[str | None, ...]
 
 
-def _index(values: np.ndarray, days: np.ndarray) -> np.ndarray:
-    """values[days[b, i], b] for every cell b and prey i: shape (B, P, ...)."""
-    cells = np.arange(values.shape[1])[:, None]
-    return values[days, cells]
-
-
-def solve_season_batch(grid: Grid) -> SeasonBatch:
+def solve_season_batch(grid: Grid, chunk: int = CHUNK) -> SeasonBatch:
     """Backward induction and forward propagation of a batch of season studies.
 
     Parameters
     ----------
     grid : Grid
         A stacked grid, season currency.
+    chunk : int
+        Cells solved in one pass (results do not depend on it).
 
     Returns
     -------
@@ -86,107 +98,173 @@ def solve_season_batch(grid: Grid) -> SeasonBatch:
     if grid.currency != "season":
         raise RiskdietError("solve_season_batch needs the season currency")
     batch = grid.cost.shape[0]
-    days, n, n_prey, m = grid.season_days, grid.n, grid.n_prey, grid.n_living
+    parts = [_solve_chunk(take_cells(grid, np.arange(lo, min(lo + chunk, batch))))
+             for lo in range(0, batch, chunk)]
+    return SeasonBatch(*(np.concatenate([getattr(p, name) for p in parts])
+                         for name in ("fitness_at_start", "marginal_hunting_ability",
+                                      "priority", "expected_kills", "survival_by_day",
+                                      "chance_above_threshold")),
+                       tuple(f for p in parts for f in p.failures))
+
+
+class _Policies:
+    """Ranked sets of a batch as keys: table codes (few prey) or the ranks themselves."""
+
+    def __init__(self, grid: Grid) -> None:
+        self.table: SetTable | None = set_table(grid.n_prey)
+        self.p = grid.encounter_prob
+        batch = grid.cost.shape[0]
+        if self.table is not None:
+            size = self.table.size
+            self.probs = self.table.probabilities(self.p).reshape(batch * size, grid.n_prey)
+            self.offset = (np.arange(batch) * size)[:, None, None]
+
+    def key(self, ranks: np.ndarray) -> np.ndarray:
+        return ranks if self.table is None else self.table.codes(ranks).astype(np.int16)
+
+    def attack_probabilities(self, key: np.ndarray) -> np.ndarray:
+        if self.table is None:
+            return attack_probabilities(self.p, key.astype(np.intp))
+        return self.probs.take(key + self.offset, axis=0)
+
+    def differ(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return (a != b).any(-1) if self.table is None else a != b
+
+    def choose(self, mask: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return np.where(mask if self.table is not None else mask[..., None], a, b)
+
+    def ranks(self, key: np.ndarray) -> np.ndarray:
+        return key if self.table is None else self.table.ranks[key]
+
+
+def _solve_chunk(grid: Grid) -> SeasonBatch:
+    batch = grid.cost.shape[0]
+    days, n, m = grid.season_days, grid.n, grid.n_living
+    levels = n + 1
     tg = targets(grid)
-    terminal = (np.arange(n + 1)[None, :] >= grid.terminal_level[:, None]).astype(float)
-    values = np.zeros((days + 1, batch, 2, n + 1))
-    values[days] = terminal[:, None, :]
-    comps = np.ones((days + 1, batch, 2, n + 1))
-    comps[days] = 1.0 - terminal[:, None, :]
-    slopes = np.zeros_like(values)
-    priority = np.full((days, batch, 2, m, n_prey), -1, dtype=np.int8)
-    alive = (1.0 - grid.mortality)[..., :, None]
-    skill = grid.capture_slope[..., :, None, :]
-    handling = grid.handling.astype(np.intp)
-    default = default_sets(grid, tg)
+    handling = np.minimum(grid.handling, days).astype(np.intp)
+    ahead = int(handling.max(initial=0))
+    store = np.zeros((days + 1 + ahead, batch, QUANTITIES, 2, levels))
+    store[:, :, U] = 1.0
+    terminal = (np.arange(levels)[None, :] >= grid.terminal_level[:, None]).astype(float)
+    store[days:, :, V] = terminal[:, None, :]
+    store[days:, :, U] = 1.0 - terminal[:, None, :]
+    flat = store.reshape(-1)
+    day_size = batch * QUANTITIES * 2 * levels
+    window = (ahead + 1) * day_size
+    step = backward_step(grid, tg, handling, ahead)
+    cut = np.cumsum(step.sizes)[:-1]
+    n_prey = grid.n_prey
+    mu = grid.mortality[..., :, None]
+    alive = 1.0 - mu
+
+    policies = _Policies(grid)
+    default = policies.key(default_sets(grid, tg))
+    p_default = policies.attack_probabilities(default)
+    keys = np.empty((days, *default.shape), dtype=default.dtype)
     for t in range(days - 1, -1, -1):
-        cap_day = np.minimum(t + 1 + handling, days)
-        cv = choice_values(grid, tg, values[t + 1], comps[t + 1], _index(values, cap_day),
-                           _index(comps, cap_day))
-        ranks, _ = keep_unless_better(grid, cv, default)
-        v, u, attack_prob = set_values(grid, cv, ranks)
-        priority[t] = ranks
-        values[t, :, :, 1:] = v
-        comps[t, :, :, 1:] = u
-        d_ignore, d_attack_lin, _ = step_values(grid, tg, slopes[t + 1], _index(slopes, cap_day))
-        d_total = d_attack_lin + cv.d_attack * skill
-        slopes[t, :, :, 1:] = alive * (d_ignore + (attack_prob * (d_total - d_ignore[..., None]))
-                                       .sum(-1))
+        start = (t + 1) * day_size
+        out = step.matrix @ flat[start:start + window]
+        ignore, av, au, d_total = np.split(out, cut)
+        ignore = ignore.reshape(batch, QUANTITIES, 2, m)
+        av = av.reshape(batch, 2, m, n_prey)
+        au = au.reshape(batch, 2, m, n_prey) + step.u_constant
+        d_total = d_total.reshape(batch, 2, m, n_prey)
+        gv, gu = ignore[:, V], ignore[:, U]
+
+        worth = better(av, au, gv[..., None], gu[..., None])
+        upper = av > 0.5
+        greedy = policies.key(pairwise_ranks(worth, upper, np.where(upper, au, -av)))
+        p_greedy = policies.attack_probabilities(greedy)
+        dv = av - gv[..., None]
+        du = au - gu[..., None]
+        g_v = alive * (gv + (p_greedy * dv).sum(-1))
+        g_u = mu + alive * (gu + (p_greedy * du).sum(-1))
+        i_v = alive * (gv + (p_default * dv).sum(-1))
+        i_u = mu + alive * (gu + (p_default * du).sum(-1))
+        switched = better(g_v, g_u, i_v, i_u) & policies.differ(greedy, default)
+        keys[t] = policies.choose(switched, greedy, default)
+        prob = np.where(switched[..., None], p_greedy, p_default)
+        today = store[t]
+        today[:, V, :, 1:] = np.where(switched, g_v, i_v)
+        today[:, U, :, 1:] = np.where(switched, g_u, i_u)
+        d_ignore = ignore[:, S]
+        today[:, S, :, 1:] = alive * (d_ignore + (prob * (d_total - d_ignore[..., None]))
+                                      .sum(-1))
+
     start = grid.start_level
     cells = np.arange(batch)
-    v0 = values[0, cells, 0, start]
+    v0 = store[0, cells, V, 0, start]
     failures: list[str | None] = [None] * batch
-    worst = np.abs(values[0, :, :, 1:] + comps[0, :, :, 1:] - 1.0).reshape(batch, -1).max(1)
+    worst = np.abs(store[0, :, V, :, 1:] + store[0, :, U, :, 1:] - 1.0).reshape(batch, -1)
+    worst = worst.max(1)
     for b in np.flatnonzero(~np.isfinite(worst) | (worst > SUM_LIMIT)):
         failures[b] = (f"the season's values are inexact (a chance and its complement differ "
                        f"from 1 by {worst[b]:.1e})")
-    kills, survival, above = _forward(grid, tg, priority)
-    return SeasonBatch(v0, slopes[0, cells, 0, start], priority[0], kills, survival, above,
+    kills, survival, above = _forward(grid, tg, policies, keys, handling)
+    priority = policies.ranks(keys[0]).astype(np.int8)
+    return SeasonBatch(v0, store[0, cells, S, 0, start], priority, kills, survival, above,
                        tuple(failures))
 
 
-def _forward(grid: Grid, tg, priority: np.ndarray
-             ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _forward(grid: Grid, tg: Targets, policies: _Policies, keys: np.ndarray,
+             handling: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Expected kills, survival by day and the end-of-season chance of being in condition.
 
     The conventions of :func:`riskdiet.core.chain.season_outlook`: a step started on day
     t ends on day min(t + 1 + H_i, T); an animal in the middle of a step it survives
-    counts as alive; kills count on the start day.
+    counts as alive; kills count on the start day. Arrivals are kept by day, level 0
+    (death) included, on days up to T + max H_i; those on or after day T are the
+    end of the season.
     """
     batch = grid.cost.shape[0]
     days, m, n_prey = grid.season_days, grid.n_living, grid.n_prey
-    size = 2 * m
-    total = batch * size
-    offset = (np.arange(batch) * size)[:, None, None, None]
-    handling = grid.handling.astype(np.intp)
-    arrivals = np.zeros((days + 1, total))
-    arrivals[0, np.arange(batch) * size + grid.start_level - 1] = 1.0
-    transit = np.zeros((days + 2, batch))
+    levels = grid.n + 1
+    ahead = int(handling.max(initial=0))
+    span = ahead + 1
+    arrivals = np.zeros((days + 1 + ahead, batch, 2, levels))
+    arrivals[0, np.arange(batch), 0, grid.start_level] = 1.0
+    transit = np.zeros((days + 2 + ahead, batch))
     kills = np.zeros((batch, n_prey))
-    cell_of = np.repeat(np.arange(batch), size)
-    width = int(handling.max(initial=0)) + 1  # days ahead a step can end
+
+    moves = forward_moves(grid, tg, handling, ahead)
+    n_quiet, n_cap = batch * 2 * m, batch * 2 * m * n_prey
+    flows = np.empty(n_quiet + 2 * n_cap)
+    f_quiet = flows[:n_quiet].reshape(batch, 2, m)
+    f_cap = flows[n_quiet:n_quiet + n_cap].reshape(batch, 2, m, n_prey)
+    f_inj = flows[n_quiet + n_cap:].reshape(batch, 2, m, n_prey)
+
+    alive = (1.0 - grid.mortality)[:, :, None, None]
+    f4, s4 = grid.fatality[:, None, None, :], grid.capture[:, :, None, :]
+    q4 = grid.injury_chance[:, None, None, :]
+    kill_c = alive * (1.0 - f4) * s4
+    quiet_c = (1.0 - f4) * (1.0 - s4) * (1.0 - q4)
+    capture_c = kill_c * tg.survive_handling[:, :, None, :]
+    injury_c = alive * (1.0 - f4) * (1.0 - s4) * q4
+    alive3 = alive[..., 0]
     for t in range(days):
-        mass = arrivals[t]
+        mass = arrivals[t, :, :, 1:]
         if not mass.any():
             continue
-        attack_prob = attack_probabilities(grid.encounter_prob, priority[t].astype(np.intp))
-        kill = kill_probabilities(grid, attack_prob)
-        source = mass.reshape(batch, 2, m)[..., None]
-        kills += (source * kill).sum((1, 2))
-        where, weight = [], []
-        for o in outcomes(grid, tg, attack_prob):
-            if o.captured:
-                ahead = np.minimum(t + 1 + handling, days)[:, None, None, :] - (t + 1)
-            else:
-                ahead = np.zeros((batch, 1, 1, 1), dtype=np.intp)
-            ahead = np.broadcast_to(ahead, o.prob.shape)
-            flow = source * o.prob
-            for level, wt in ((o.split.low, 1.0 - o.split.weight),
-                              (o.split.low + 1, o.split.weight)):
-                level = np.broadcast_to(level, o.prob.shape)
-                mass_to = flow * wt
-                living = (mass_to > 0) & (level >= 1)
-                healthy = mass_to * o.healthy_share
-                for cond, val in ((0, healthy), (1, mass_to - healthy)):
-                    keep = living & (val > 0)
-                    target = np.broadcast_to(offset + cond * m + level - 1, o.prob.shape)
-                    where.append(ahead[keep] * total + target[keep])
-                    weight.append(val[keep])
-        where_all, weight_all = np.concatenate(where), np.concatenate(weight)
-        span = min(width, days - t)
-        landed = np.bincount(where_all, weight_all, minlength=span * total)
-        arrivals[t + 1:t + 1 + span] += landed.reshape(span, total)
-        # mass in the middle of a step it survives is alive on the days in between
-        moved = landed.reshape(span, batch, size).sum(2)
-        for k in range(1, span):
-            transit[t + 1] += moved[k]
-            transit[t + 1 + k] -= moved[k]
-    in_transit = np.cumsum(transit, axis=0)[: days + 1]
-    alive = np.zeros((days + 1, batch))
-    for t in range(days + 1):
-        alive[t] = np.bincount(cell_of, arrivals[t], minlength=batch)
-    survival = np.clip(alive + in_transit, 0.0, 1.0).T
-    levels = np.tile(np.arange(1, m + 1), 2)
-    good = levels[None, :] >= grid.terminal_level[:, None]
-    above = (arrivals[days].reshape(batch, size) * good).sum(1)
+        prob = policies.attack_probabilities(keys[t])
+        attacked = mass[..., None] * prob
+        kills += (attacked * kill_c).sum((1, 2))
+        f_quiet[...] = mass * alive3 * (1.0 - prob.sum(-1) + (prob * quiet_c).sum(-1))
+        np.multiply(attacked, capture_c, out=f_cap)
+        np.multiply(attacked, injury_c, out=f_inj)
+        landed = (moves @ flows).reshape(span, batch, 2, levels)
+        arrivals[t + 1:t + 1 + span] += landed
+        if ahead:
+            # mass in the middle of a step it survives is alive on the days in between
+            moved = landed[1:].sum((2, 3))
+            transit[t + 1] += moved.sum(0)
+            transit[t + 2:t + 2 + ahead] -= moved
+    in_transit = np.cumsum(transit, axis=0)[:days]
+    alive_by_day = np.empty((days + 1, batch))
+    alive_by_day[:days] = arrivals[:days, :, :, 1:].sum((2, 3)) + in_transit
+    final = arrivals[days:, :, :, 1:].sum(0)
+    alive_by_day[days] = final.sum((1, 2))
+    survival = np.clip(alive_by_day, 0.0, 1.0).T
+    good = np.arange(1, m + 1)[None, :] >= grid.terminal_level[:, None]
+    above = (final * good[:, None, :]).sum((1, 2))
     return kills, survival, above
