@@ -29,42 +29,47 @@ MAX_TABLED_PREY = 6
 """Above this many prey the sets are too many to table (1,957 for six prey)."""
 
 
-def pairwise_ranks(worth: np.ndarray, primary_upper: np.ndarray, secondary: np.ndarray
-                   ) -> np.ndarray:
+def ranks_prey_first(worth: np.ndarray, upper: np.ndarray, secondary: np.ndarray
+                     ) -> np.ndarray:
     """Rank of each prey among those worth attacking, by pairwise comparisons.
 
     Parameters
     ----------
-    worth : ndarray of bool, shape (..., P)
+    worth : ndarray of bool, shape (P, ...)
         Whether the prey is in the set.
-    primary_upper : ndarray of bool, shape (..., P)
+    upper : ndarray of bool, shape (P, ...)
         Whether its value exceeds one half (such prey rank first).
-    secondary : ndarray, shape (..., P)
+    secondary : ndarray, shape (P, ...)
         The ranking key within each group, smaller first (U, or -V).
 
     Returns
     -------
-    ndarray of int8, shape (..., P)
+    ndarray of int8, shape (P, ...)
         The rank (0 = best) of every prey in the set, ties to the prey listed
         first; -1 for prey not in the set. Equals a stable lexicographic sort on
-        (not worth, not upper, secondary, listing order), NaN keys last.
+        (not worth, not upper, secondary, listing order) for keys that are not
+        NaN.
     """
-    n_prey = worth.shape[-1]
-    # 0 = worth and upper, 2 = worth below one half, 4 = not worth (doubled so that
-    # "earlier group or same group and key not larger" is one integer comparison)
-    group = np.where(worth, np.where(primary_upper, 0, 2), 4).astype(np.int8)
-    key = np.where(np.isnan(secondary), np.inf, secondary)
-    group = np.moveaxis(group, -1, 0).copy()
-    key = np.moveaxis(key, -1, 0).copy()
-    ranks = np.zeros_like(group)
+    n_prey = worth.shape[0]
+    # 0 = worth and upper, 2 = worth below one half, 4 = not worth: doubled, so that
+    # "earlier group, or same group and key not larger" is one integer comparison
+    group = 4 - 2 * worth.view(np.int8) * (1 + upper.view(np.int8))
+    ranks = np.zeros(worth.shape, dtype=np.int8)
     for i in range(n_prey):
         for j in range(i):
             # prey j (listed first) comes before prey i
-            first = (group[i] - group[j] + (key[j] <= key[i])) > 0
+            first = (group[i] - group[j] + (secondary[j] <= secondary[i])) > 0
             ranks[i] += first
             ranks[j] += ~first
-    ranks = np.moveaxis(ranks, 0, -1)
-    return np.where(worth, ranks, np.int8(-1))
+    ranks[~worth] = -1
+    return ranks
+
+
+def pairwise_ranks(worth: np.ndarray, upper: np.ndarray, secondary: np.ndarray) -> np.ndarray:
+    """:func:`ranks_prey_first` for arrays with prey on the last axis."""
+    ranks = ranks_prey_first(*(np.ascontiguousarray(np.moveaxis(x, -1, 0))
+                               for x in (worth, upper, secondary)))
+    return np.moveaxis(ranks, 0, -1)
 
 
 def greedy_ranks(cv: ChoiceValues) -> np.ndarray:
@@ -94,10 +99,12 @@ class SetTable:
         return self.ranks.shape[0]
 
     def codes(self, ranks: np.ndarray) -> np.ndarray:
-        """Codes of ranked sets given as ranks, shape (..., P) -> (...)."""
-        n_prey = ranks.shape[-1]
-        digits = (ranks.astype(np.intp) + 1) * (n_prey + 1) ** np.arange(n_prey)
-        return self.lookup[digits.sum(-1)]
+        """Codes of ranked sets given as ranks with prey first, shape (P, ...) -> (...)."""
+        n_prey = ranks.shape[0]
+        digits = np.zeros(ranks.shape[1:], dtype=np.intp)
+        for i in range(n_prey):
+            digits += (ranks[i] + np.intp(1)) * (n_prey + 1) ** i
+        return self.lookup[digits]
 
     def probabilities(self, encounter_prob: np.ndarray) -> np.ndarray:
         """P_i of every set for every cell: shape (*B, S, P) for p of shape (*B, P).
@@ -121,7 +128,7 @@ def set_table(n_prey: int) -> SetTable | None:
             row[list(chosen)] = np.arange(size)
             rows.append(row)
     ranks = np.array(rows, dtype=np.int8).reshape(len(rows), n_prey)
-    lookup = np.full((n_prey + 1) ** n_prey, -1, dtype=np.intp)
+    lookup = np.full((n_prey + 1) ** n_prey, -1, dtype=np.int16)
     weights = (n_prey + 1) ** np.arange(n_prey)
     lookup[((ranks.astype(np.intp) + 1) * weights).sum(-1)] = np.arange(len(rows))
     return SetTable(ranks, lookup)

@@ -38,9 +38,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.core.choice import better, default_sets
+from riskdiet.core.choice import RELATIVE_TOLERANCE, better, default_sets
 from riskdiet.core.grid import Grid, Targets, attack_probabilities, take_cells, targets
-from riskdiet.core.ranked_sets import SetTable, pairwise_ranks, set_table
+from riskdiet.core.ranked_sets import SetTable, ranks_prey_first, set_table
 from riskdiet.core.season_plan import QUANTITIES, S, U, V, backward_step, forward_moves
 from riskdiet.core.solver import SUM_LIMIT
 from riskdiet.errors import RiskdietError
@@ -108,7 +108,10 @@ def solve_season_batch(grid: Grid, chunk: int = CHUNK) -> SeasonBatch:
 
 
 class _Policies:
-    """Ranked sets of a batch as keys: table codes (few prey) or the ranks themselves."""
+    """Ranked sets of a batch as keys: table codes (few prey) or the ranks themselves.
+
+    Ranks and attack probabilities have prey on the first axis: (P, B, 2, m).
+    """
 
     def __init__(self, grid: Grid) -> None:
         self.table: SetTable | None = set_table(grid.n_prey)
@@ -116,25 +119,27 @@ class _Policies:
         batch = grid.cost.shape[0]
         if self.table is not None:
             size = self.table.size
-            self.probs = self.table.probabilities(self.p).reshape(batch * size, grid.n_prey)
+            probs = self.table.probabilities(self.p)                       # (B, S, P)
+            self.probs = np.ascontiguousarray(probs.reshape(batch * size, -1).T)
             self.offset = (np.arange(batch) * size)[:, None, None]
 
     def key(self, ranks: np.ndarray) -> np.ndarray:
-        return ranks if self.table is None else self.table.codes(ranks).astype(np.int16)
+        return ranks if self.table is None else self.table.codes(ranks)
 
     def attack_probabilities(self, key: np.ndarray) -> np.ndarray:
         if self.table is None:
-            return attack_probabilities(self.p, key.astype(np.intp))
-        return self.probs.take(key + self.offset, axis=0)
+            return np.moveaxis(attack_probabilities(self.p, np.moveaxis(key, 0, -1)), -1, 0)
+        return self.probs.take(key + self.offset, axis=1)
 
     def differ(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-        return (a != b).any(-1) if self.table is None else a != b
+        return (a != b).any(0) if self.table is None else a != b
 
     def choose(self, mask: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-        return np.where(mask if self.table is not None else mask[..., None], a, b)
+        return np.where(mask, a, b)
 
     def ranks(self, key: np.ndarray) -> np.ndarray:
-        return key if self.table is None else self.table.ranks[key]
+        """Ranks with prey last, shape (B, 2, m, P)."""
+        return np.moveaxis(key, 0, -1) if self.table is None else self.table.ranks[key]
 
 
 def _solve_chunk(grid: Grid) -> SeasonBatch:
@@ -159,7 +164,8 @@ def _solve_chunk(grid: Grid) -> SeasonBatch:
     alive = 1.0 - mu
 
     policies = _Policies(grid)
-    default = policies.key(default_sets(grid, tg))
+    default = policies.key(np.ascontiguousarray(np.moveaxis(default_sets(grid, tg), -1, 0)
+                                                .astype(np.int8)))
     p_default = policies.attack_probabilities(default)
     keys = np.empty((days, *default.shape), dtype=default.dtype)
     for t in range(days - 1, -1, -1):
@@ -167,30 +173,32 @@ def _solve_chunk(grid: Grid) -> SeasonBatch:
         out = step.matrix @ flat[start:start + window]
         ignore, av, au, d_total = np.split(out, cut)
         ignore = ignore.reshape(batch, QUANTITIES, 2, m)
-        av = av.reshape(batch, 2, m, n_prey)
-        au = au.reshape(batch, 2, m, n_prey) + step.u_constant
-        d_total = d_total.reshape(batch, 2, m, n_prey)
+        av = av.reshape(n_prey, batch, 2, m)
+        au = au.reshape(n_prey, batch, 2, m) + step.u_constant
+        d_total = d_total.reshape(n_prey, batch, 2, m)
         gv, gu = ignore[:, V], ignore[:, U]
 
-        worth = better(av, au, gv[..., None], gu[..., None])
+        # choice.better(A, G), with the differences kept for the set values below
+        dv = av - gv
+        du = au - gu
         upper = av > 0.5
-        greedy = policies.key(pairwise_ranks(worth, upper, np.where(upper, au, -av)))
+        worth = np.where(upper & (gv > 0.5),
+                         -du > RELATIVE_TOLERANCE * np.maximum(au, gu),
+                         dv > RELATIVE_TOLERANCE * np.maximum(av, gv))
+        greedy = policies.key(ranks_prey_first(worth, upper, np.where(upper, au, -av)))
         p_greedy = policies.attack_probabilities(greedy)
-        dv = av - gv[..., None]
-        du = au - gu[..., None]
-        g_v = alive * (gv + (p_greedy * dv).sum(-1))
-        g_u = mu + alive * (gu + (p_greedy * du).sum(-1))
-        i_v = alive * (gv + (p_default * dv).sum(-1))
-        i_u = mu + alive * (gu + (p_default * du).sum(-1))
+        g_v = alive * (gv + (p_greedy * dv).sum(0))
+        g_u = mu + alive * (gu + (p_greedy * du).sum(0))
+        i_v = alive * (gv + (p_default * dv).sum(0))
+        i_u = mu + alive * (gu + (p_default * du).sum(0))
         switched = better(g_v, g_u, i_v, i_u) & policies.differ(greedy, default)
         keys[t] = policies.choose(switched, greedy, default)
-        prob = np.where(switched[..., None], p_greedy, p_default)
+        prob = np.where(switched, p_greedy, p_default)
         today = store[t]
         today[:, V, :, 1:] = np.where(switched, g_v, i_v)
         today[:, U, :, 1:] = np.where(switched, g_u, i_u)
         d_ignore = ignore[:, S]
-        today[:, S, :, 1:] = alive * (d_ignore + (prob * (d_total - d_ignore[..., None]))
-                                      .sum(-1))
+        today[:, S, :, 1:] = alive * (d_ignore + (prob * (d_total - d_ignore)).sum(0))
 
     start = grid.start_level
     cells = np.arange(batch)
@@ -231,25 +239,27 @@ def _forward(grid: Grid, tg: Targets, policies: _Policies, keys: np.ndarray,
     n_quiet, n_cap = batch * 2 * m, batch * 2 * m * n_prey
     flows = np.empty(n_quiet + 2 * n_cap)
     f_quiet = flows[:n_quiet].reshape(batch, 2, m)
-    f_cap = flows[n_quiet:n_quiet + n_cap].reshape(batch, 2, m, n_prey)
-    f_inj = flows[n_quiet + n_cap:].reshape(batch, 2, m, n_prey)
+    f_cap = flows[n_quiet:n_quiet + n_cap].reshape(n_prey, batch, 2, m)
+    f_inj = flows[n_quiet + n_cap:].reshape(n_prey, batch, 2, m)
 
-    alive = (1.0 - grid.mortality)[:, :, None, None]
-    f4, s4 = grid.fatality[:, None, None, :], grid.capture[:, :, None, :]
-    q4 = grid.injury_chance[:, None, None, :]
+    # chances per attack, prey first: (P, B, 2, 1)
+    alive3 = (1.0 - grid.mortality)[:, :, None]
+    alive = alive3[None]
+    f4 = grid.fatality.T[:, :, None, None]
+    s4 = np.moveaxis(grid.capture, -1, 0)[..., None]
+    q4 = grid.injury_chance.T[:, :, None, None]
     kill_c = alive * (1.0 - f4) * s4
     quiet_c = (1.0 - f4) * (1.0 - s4) * (1.0 - q4)
-    capture_c = kill_c * tg.survive_handling[:, :, None, :]
+    capture_c = kill_c * np.moveaxis(tg.survive_handling, -1, 0)[..., None]
     injury_c = alive * (1.0 - f4) * (1.0 - s4) * q4
-    alive3 = alive[..., 0]
     for t in range(days):
         mass = arrivals[t, :, :, 1:]
         if not mass.any():
             continue
         prob = policies.attack_probabilities(keys[t])
-        attacked = mass[..., None] * prob
-        kills += (attacked * kill_c).sum((1, 2))
-        f_quiet[...] = mass * alive3 * (1.0 - prob.sum(-1) + (prob * quiet_c).sum(-1))
+        attacked = mass * prob
+        kills += (attacked * kill_c).sum((2, 3)).T
+        f_quiet[...] = mass * alive3 * (1.0 - prob.sum(0) + (prob * quiet_c).sum(0))
         np.multiply(attacked, capture_c, out=f_cap)
         np.multiply(attacked, injury_c, out=f_inj)
         landed = (moves @ flows).reshape(span, batch, 2, levels)

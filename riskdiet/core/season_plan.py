@@ -46,10 +46,12 @@ class BackwardStep:
     """Choice values of every state as one sparse matrix of the next days' values.
 
     ``matrix @ window`` gives, in this order: G of each quantity, shape
-    (B, 3, 2, m); A_i on V, shape (B, 2, m, P); A_i on U without its constant
-    (add ``u_constant``: the chance of dying in the attack or in the handling
-    days); and dA_i/da at fixed values: A_i on the derivatives plus the
-    capture-success slope times dA_i/ds_i on V.
+    (B, 3, 2, m); A_i on V, shape (P, B, 2, m) (prey first); A_i on U without
+    its constant (add ``u_constant``, shape (P, B, 2, 1): the chance of dying
+    in the attack or in the handling days); and dA_i/da at fixed values: A_i
+    on the derivatives plus the capture-success slope times dA_i/ds_i on V.
+    The products are those of :func:`riskdiet.core.choice.step_values`
+    multiplied out, so results agree with it to rounding, not bit for bit.
     """
 
     matrix: sp.csr_array
@@ -149,14 +151,18 @@ def backward_step(grid: Grid, tg: Targets, handling: np.ndarray, ahead: int) -> 
     a_vals = attack_vals(alpha, beta, gamma)
     d_vals = attack_vals(skill * (1 - f) * sh, -skill * (1 - f) * q,
                          -skill * (1 - f) * (1 - q))
-    cols = [g_cols, attack_cols(V), attack_cols(U),
-            np.concatenate([attack_cols(S), attack_cols(V)], axis=-1)]
-    vals = [g_vals, a_vals, a_vals, np.concatenate([a_vals, d_vals], axis=-1)]
+    def prey_first(x):
+        return np.moveaxis(x, 3, 0)
+
+    cols = [g_cols, prey_first(attack_cols(V)), prey_first(attack_cols(U)),
+            prey_first(np.concatenate([attack_cols(S), attack_cols(V)], axis=-1))]
+    vals = [g_vals, prey_first(a_vals), prey_first(a_vals),
+            prey_first(np.concatenate([a_vals, d_vals], axis=-1))]
     matrix = _csr(cols, vals, (ahead + 1) * batch * q_ * 2 * levels)
     sizes = (batch * q_ * 2 * m, batch * 2 * m * n_prey, batch * 2 * m * n_prey,
              batch * 2 * m * n_prey)
-    f4, s4 = grid.fatality[:, None, None, :], grid.capture[:, :, None, :]
-    u_constant = f4 + (1.0 - f4) * s4 * tg.die_handling[:, :, None, :]
+    f4, s4 = grid.fatality.T[:, :, None, None], np.moveaxis(grid.capture, -1, 0)[..., None]
+    u_constant = f4 + (1.0 - f4) * s4 * np.moveaxis(tg.die_handling, -1, 0)[..., None]
     return BackwardStep(matrix, sizes, u_constant)
 
 
@@ -201,9 +207,11 @@ def forward_moves(grid: Grid, tg: Targets, handling: np.ndarray, ahead: int) -> 
     rows.append((cell[..., None, None] * 2 + 1) * levels + inj_level)
     vals.append(np.where(upper[:2] == 1, inj_w, 1.0 - inj_w))
     lv.append(inj_level)
+    # flow columns hold prey first: (P, B, 2, m)
+    prey_last = np.moveaxis(np.arange(n_cap).reshape(n_prey, batch, 2, m), 0, -1)[..., None]
     sources = [np.arange(n_quiet).reshape(batch, 2, m, 1),
-               n_quiet + np.arange(n_cap).reshape(batch, 2, m, n_prey, 1),
-               n_quiet + n_cap + np.arange(n_cap).reshape(batch, 2, m, n_prey, 1)]
+               n_quiet + prey_last,
+               n_quiet + n_cap + prey_last]
     r_all, c_all, v_all = [], [], []
     for dest, val, level, src in zip(rows, vals, lv, sources, strict=True):
         keep = (val != 0.0) & (level >= 1)
