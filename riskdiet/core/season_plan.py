@@ -29,6 +29,7 @@ References
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -63,12 +64,10 @@ def _csr(cols: list[np.ndarray], vals: list[np.ndarray], n_cols: int) -> sp.csr_
     """CSR matrix from per-row entry blocks (rows in block order, zero entries dropped)."""
     flat_c, flat_v, counts = [], [], []
     for c, v in zip(cols, vals, strict=True):
-        c = np.broadcast_to(c, v.shape).reshape(-1, v.shape[-1])
-        v = v.reshape(-1, v.shape[-1])
         keep = v != 0.0
-        flat_c.append(c[keep])
+        flat_c.append(np.broadcast_to(c, v.shape)[keep])
         flat_v.append(v[keep])
-        counts.append(keep.sum(1))
+        counts.append(keep.sum(-1).reshape(-1))
     indptr = np.concatenate([[0], np.cumsum(np.concatenate(counts))])
     index = np.int32 if n_cols < 2 ** 31 and indptr[-1] < 2 ** 31 else np.int64
     return sp.csr_array((np.concatenate(flat_v), np.concatenate(flat_c).astype(index),
@@ -133,6 +132,7 @@ def backward_step(grid: Grid, tg: Targets, handling: np.ndarray, ahead: int) -> 
     skill = grid.capture_slope[:, :, None, :, None]
     alpha, beta, gamma = (1 - f) * s * sh, (1 - f) * (1 - s) * q, (1 - f) * (1 - s) * (1 - q)
 
+    @functools.cache
     def attack_cols(quantity):
         return np.concatenate(
             [np.broadcast_to(col(cap_day, quantity, row, c_low), cap_val.shape),
