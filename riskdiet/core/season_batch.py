@@ -45,7 +45,7 @@ from riskdiet.core.season_plan import QUANTITIES, S, U, V, backward_step, forwar
 from riskdiet.core.solver import SUM_LIMIT
 from riskdiet.errors import RiskdietError
 
-CHUNK = 32
+CHUNK = 64
 """Cells per pass: the day's working arrays then stay in the processor's cache."""
 
 
@@ -233,7 +233,7 @@ def _forward(grid: Grid, tg: Targets, policies: _Policies, keys: np.ndarray,
     arrivals = np.zeros((days + 1 + ahead, batch, 2, levels))
     arrivals[0, np.arange(batch), 0, grid.start_level] = 1.0
     transit = np.zeros((days + 2 + ahead, batch))
-    kills = np.zeros((batch, n_prey))
+    attacks = np.zeros((n_prey, batch, 2, m))  # expected attacks by start state
 
     moves = forward_moves(grid, tg, handling, ahead)
     n_quiet, n_cap = batch * 2 * m, batch * 2 * m * n_prey
@@ -249,7 +249,8 @@ def _forward(grid: Grid, tg: Targets, policies: _Policies, keys: np.ndarray,
     s4 = np.moveaxis(grid.capture, -1, 0)[..., None]
     q4 = grid.injury_chance.T[:, :, None, None]
     kill_c = alive * (1.0 - f4) * s4
-    quiet_c = (1.0 - f4) * (1.0 - s4) * (1.0 - q4)
+    # an attack leaves a quiet day unless it kills, injures or captures
+    not_quiet = 1.0 - (1.0 - f4) * (1.0 - s4) * (1.0 - q4)
     capture_c = kill_c * np.moveaxis(tg.survive_handling, -1, 0)[..., None]
     injury_c = alive * (1.0 - f4) * (1.0 - s4) * q4
     for t in range(days):
@@ -258,8 +259,8 @@ def _forward(grid: Grid, tg: Targets, policies: _Policies, keys: np.ndarray,
             continue
         prob = policies.attack_probabilities(keys[t])
         attacked = mass * prob
-        kills += (attacked * kill_c).sum((2, 3)).T
-        f_quiet[...] = mass * alive3 * (1.0 - prob.sum(0) + (prob * quiet_c).sum(0))
+        attacks += attacked
+        f_quiet[...] = mass * alive3 * (1.0 - (prob * not_quiet).sum(0))
         np.multiply(attacked, capture_c, out=f_cap)
         np.multiply(attacked, injury_c, out=f_inj)
         landed = (moves @ flows).reshape(span, batch, 2, levels)
@@ -269,6 +270,7 @@ def _forward(grid: Grid, tg: Targets, policies: _Policies, keys: np.ndarray,
             moved = landed[1:].sum((2, 3))
             transit[t + 1] += moved.sum(0)
             transit[t + 2:t + 2 + ahead] -= moved
+    kills = (attacks * kill_c).sum((2, 3)).T
     in_transit = np.cumsum(transit, axis=0)[:days]
     alive_by_day = np.empty((days + 1, batch))
     alive_by_day[:days] = arrivals[:days, :, :, 1:].sum((2, 3)) + in_transit
