@@ -46,7 +46,11 @@ from riskdiet.core.solver import SUM_LIMIT
 from riskdiet.errors import RiskdietError
 
 CHUNK = 64
-"""Cells per pass: the day's working arrays then stay in the processor's cache."""
+"""Cells per pass, at most (fewer when a long season on many levels would make the
+stored values of a pass larger than ``STORE_BYTES``)."""
+
+STORE_BYTES = 64 * 2 ** 20
+"""Memory for the stored values (3 quantities by day, condition and level) of one pass."""
 
 
 
@@ -89,7 +93,7 @@ def solve_season_batch(grid: Grid, chunk: int = CHUNK) -> SeasonBatch:
     grid : Grid
         A stacked grid, season currency.
     chunk : int
-        Cells solved in one pass (results do not depend on it).
+        Cells solved in one pass, at most (results do not depend on it).
 
     Returns
     -------
@@ -98,6 +102,9 @@ def solve_season_batch(grid: Grid, chunk: int = CHUNK) -> SeasonBatch:
     if grid.currency != "season":
         raise RiskdietError("solve_season_batch needs the season currency")
     batch = grid.cost.shape[0]
+    ahead = int(np.minimum(grid.handling, grid.season_days).max(initial=0))
+    per_cell = (grid.season_days + 1 + ahead) * 3 * 2 * (grid.n + 1) * 8
+    chunk = max(1, min(chunk, STORE_BYTES // per_cell))
     parts = [_solve_chunk(take_cells(grid, np.arange(lo, min(lo + chunk, batch))))
              for lo in range(0, batch, chunk)]
     return SeasonBatch(*(np.concatenate([getattr(p, name) for p in parts])
