@@ -6,7 +6,25 @@ backward induction (MODEL.md section 3) and the forward propagation of its
 kills and survival (section 5) over a stacked grid
 (:func:`riskdiet.core.grid.stack_grids`) at once. Each cell equals
 :func:`riskdiet.core.solver.solve_season` followed by
-:func:`riskdiet.core.chain.season_outlook` of its own grid.
+:func:`riskdiet.core.chain.season_outlook` of its own grid to rounding: the
+same choice values, the same comparison rule and default sets, the same
+policies, only arranged for speed:
+
+* a day's choice values (G, A_i on V and on U, dA_i/da) are one product of a
+  sparse matrix, built once per batch (:mod:`riskdiet.core.season_plan`), with
+  the values of the next days, stored by (day, cell, quantity, condition,
+  level); days from the end of the season on hold the terminal values, so a
+  capture step ending on or after day T needs no clipping of the day;
+* the greedy set is ranked by pairwise comparisons
+  (:mod:`riskdiet.core.ranked_sets`) and its attack probabilities are looked
+  up in a table of every ranked set, computed once per cell;
+* the default set's attack probabilities are computed once, and the values of
+  the chosen set are those of the greedy or the default set already computed;
+* the forward propagation is one product per day of a fixed sparse matrix
+  with the day's outcome masses.
+
+Multiplying the step out changes the rounding (values agree with single
+solves to about 1e-15 relative), never the rule of MODEL.md section 3.
 
 References
 ----------
@@ -22,16 +40,19 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.core.choice import (
-    choice_values,
-    default_sets,
-    keep_unless_better,
-    set_values,
-    step_values,
-)
-from riskdiet.core.grid import Grid, attack_probabilities, kill_probabilities, outcomes, targets
+from riskdiet.core.choice import RELATIVE_TOLERANCE, better, default_sets
+from riskdiet.core.grid import Grid, Targets, attack_probabilities, take_cells, targets
+from riskdiet.core.ranked_sets import SetTable, ranks_prey_first, set_table
+from riskdiet.core.season_plan import QUANTITIES, S, U, V, backward_step, forward_moves
 from riskdiet.core.solver import SUM_LIMIT
 from riskdiet.errors import RiskdietError
+
+CHUNK = 64
+"""Cells per pass, at most (fewer when a long season on many levels would make the
+stored values of a pass larger than ``STORE_BYTES``)."""
+
+STORE_BYTES = 64 * 2 ** 20
+"""Memory for the stored values (3 quantities by day, condition and level) of one pass."""
 
 
 @dataclass(frozen=True)
@@ -65,19 +86,15 @@ class SeasonBatch:
     failures: tuple[str | None, ...]
 
 
-def _index(values: np.ndarray, days: np.ndarray) -> np.ndarray:
-    """values[days[b, i], b] for every cell b and prey i: shape (B, P, ...)."""
-    cells = np.arange(values.shape[1])[:, None]
-    return values[days, cells]
-
-
-def solve_season_batch(grid: Grid) -> SeasonBatch:
+def solve_season_batch(grid: Grid, chunk: int = CHUNK) -> SeasonBatch:
     """Backward induction and forward propagation of a batch of season studies.
 
     Parameters
     ----------
     grid : Grid
         A stacked grid, season currency.
+    chunk : int
+        Cells solved in one pass, at most (results do not depend on it).
 
     Returns
     -------
@@ -86,107 +103,188 @@ def solve_season_batch(grid: Grid) -> SeasonBatch:
     if grid.currency != "season":
         raise RiskdietError("solve_season_batch needs the season currency")
     batch = grid.cost.shape[0]
-    days, n, n_prey, m = grid.season_days, grid.n, grid.n_prey, grid.n_living
+    ahead = int(np.minimum(grid.handling, grid.season_days).max(initial=0))
+    per_cell = (grid.season_days + 1 + ahead) * 3 * 2 * (grid.n + 1) * 8
+    chunk = max(1, min(chunk, STORE_BYTES // per_cell))
+    parts = [_solve_chunk(take_cells(grid, np.arange(lo, min(lo + chunk, batch))))
+             for lo in range(0, batch, chunk)]
+    return SeasonBatch(*(np.concatenate([getattr(p, name) for p in parts])
+                         for name in ("fitness_at_start", "marginal_hunting_ability",
+                                      "priority", "expected_kills", "survival_by_day",
+                                      "chance_above_threshold")),
+                       tuple(f for p in parts for f in p.failures))
+
+
+class _Policies:
+    """Ranked sets of a batch as keys: table codes (few prey) or the ranks themselves.
+
+    Ranks and attack probabilities have prey on the first axis: (P, B, 2, m).
+    """
+
+    def __init__(self, grid: Grid) -> None:
+        self.table: SetTable | None = set_table(grid.n_prey)
+        self.p = grid.encounter_prob
+        batch = grid.cost.shape[0]
+        if self.table is not None:
+            size = self.table.size
+            probs = self.table.probabilities(self.p)                       # (B, S, P)
+            self.probs = np.ascontiguousarray(probs.reshape(batch * size, -1).T)
+            self.offset = (np.arange(batch) * size)[:, None, None]
+
+    def key(self, ranks: np.ndarray) -> np.ndarray:
+        return ranks if self.table is None else self.table.codes(ranks)
+
+    def attack_probabilities(self, key: np.ndarray) -> np.ndarray:
+        if self.table is None:
+            return np.moveaxis(attack_probabilities(self.p, np.moveaxis(key, 0, -1)), -1, 0)
+        return self.probs.take(key + self.offset, axis=1)
+
+    def differ(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return (a != b).any(0) if self.table is None else a != b
+
+    def choose(self, mask: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        return np.where(mask, a, b)
+
+    def ranks(self, key: np.ndarray) -> np.ndarray:
+        """Ranks with prey last, shape (B, 2, m, P)."""
+        return np.moveaxis(key, 0, -1) if self.table is None else self.table.ranks[key]
+
+
+def _solve_chunk(grid: Grid) -> SeasonBatch:
+    batch = grid.cost.shape[0]
+    days, n, m = grid.season_days, grid.n, grid.n_living
+    levels = n + 1
     tg = targets(grid)
-    terminal = (np.arange(n + 1)[None, :] >= grid.terminal_level[:, None]).astype(float)
-    values = np.zeros((days + 1, batch, 2, n + 1))
-    values[days] = terminal[:, None, :]
-    comps = np.ones((days + 1, batch, 2, n + 1))
-    comps[days] = 1.0 - terminal[:, None, :]
-    slopes = np.zeros_like(values)
-    priority = np.full((days, batch, 2, m, n_prey), -1, dtype=np.int8)
-    alive = (1.0 - grid.mortality)[..., :, None]
-    skill = grid.capture_slope[..., :, None, :]
-    handling = grid.handling.astype(np.intp)
-    default = default_sets(grid, tg)
+    handling = np.minimum(grid.handling, days).astype(np.intp)
+    ahead = int(handling.max(initial=0))
+    store = np.zeros((days + 1 + ahead, batch, QUANTITIES, 2, levels))
+    store[:, :, U] = 1.0
+    terminal = (np.arange(levels)[None, :] >= grid.terminal_level[:, None]).astype(float)
+    store[days:, :, V] = terminal[:, None, :]
+    store[days:, :, U] = 1.0 - terminal[:, None, :]
+    flat = store.reshape(-1)
+    day_size = batch * QUANTITIES * 2 * levels
+    window = (ahead + 1) * day_size
+    step = backward_step(grid, tg, handling, ahead)
+    cut = np.cumsum(step.sizes)[:-1]
+    n_prey = grid.n_prey
+    mu = grid.mortality[..., :, None]
+    alive = 1.0 - mu
+
+    policies = _Policies(grid)
+    default = policies.key(np.ascontiguousarray(np.moveaxis(default_sets(grid, tg), -1, 0)
+                                                .astype(np.int8)))
+    p_default = policies.attack_probabilities(default)
+    keys = np.empty((days, *default.shape), dtype=default.dtype)
     for t in range(days - 1, -1, -1):
-        cap_day = np.minimum(t + 1 + handling, days)
-        cv = choice_values(grid, tg, values[t + 1], comps[t + 1], _index(values, cap_day),
-                           _index(comps, cap_day))
-        ranks, _ = keep_unless_better(grid, cv, default)
-        v, u, attack_prob = set_values(grid, cv, ranks)
-        priority[t] = ranks
-        values[t, :, :, 1:] = v
-        comps[t, :, :, 1:] = u
-        d_ignore, d_attack_lin, _ = step_values(grid, tg, slopes[t + 1], _index(slopes, cap_day))
-        d_total = d_attack_lin + cv.d_attack * skill
-        slopes[t, :, :, 1:] = alive * (d_ignore + (attack_prob * (d_total - d_ignore[..., None]))
-                                       .sum(-1))
+        start = (t + 1) * day_size
+        out = step.matrix @ flat[start:start + window]
+        ignore, av, au, d_total = np.split(out, cut)
+        ignore = ignore.reshape(batch, QUANTITIES, 2, m)
+        av = av.reshape(n_prey, batch, 2, m)
+        au = au.reshape(n_prey, batch, 2, m) + step.u_constant
+        d_total = d_total.reshape(n_prey, batch, 2, m)
+        gv, gu = ignore[:, V], ignore[:, U]
+
+        # choice.better(A, G), with the differences kept for the set values below
+        dv = av - gv
+        du = au - gu
+        upper = av > 0.5
+        worth = np.where(upper & (gv > 0.5),
+                         -du > RELATIVE_TOLERANCE * np.maximum(au, gu),
+                         dv > RELATIVE_TOLERANCE * np.maximum(av, gv))
+        greedy = policies.key(ranks_prey_first(worth, upper, np.where(upper, au, -av)))
+        p_greedy = policies.attack_probabilities(greedy)
+        g_v = alive * (gv + (p_greedy * dv).sum(0))
+        g_u = mu + alive * (gu + (p_greedy * du).sum(0))
+        i_v = alive * (gv + (p_default * dv).sum(0))
+        i_u = mu + alive * (gu + (p_default * du).sum(0))
+        switched = better(g_v, g_u, i_v, i_u) & policies.differ(greedy, default)
+        keys[t] = policies.choose(switched, greedy, default)
+        prob = np.where(switched, p_greedy, p_default)
+        today = store[t]
+        today[:, V, :, 1:] = np.where(switched, g_v, i_v)
+        today[:, U, :, 1:] = np.where(switched, g_u, i_u)
+        d_ignore = ignore[:, S]
+        today[:, S, :, 1:] = alive * (d_ignore + (prob * (d_total - d_ignore)).sum(0))
+
     start = grid.start_level
     cells = np.arange(batch)
-    v0 = values[0, cells, 0, start]
+    v0 = store[0, cells, V, 0, start]
     failures: list[str | None] = [None] * batch
-    worst = np.abs(values[0, :, :, 1:] + comps[0, :, :, 1:] - 1.0).reshape(batch, -1).max(1)
+    worst = np.abs(store[0, :, V, :, 1:] + store[0, :, U, :, 1:] - 1.0).reshape(batch, -1)
+    worst = worst.max(1)
     for b in np.flatnonzero(~np.isfinite(worst) | (worst > SUM_LIMIT)):
         failures[b] = (f"the season's values are inexact (a chance and its complement differ "
                        f"from 1 by {worst[b]:.1e})")
-    kills, survival, above = _forward(grid, tg, priority)
-    return SeasonBatch(v0, slopes[0, cells, 0, start], priority[0], kills, survival, above,
+    kills, survival, above = _forward(grid, tg, policies, keys, handling)
+    priority = policies.ranks(keys[0]).astype(np.int8)
+    return SeasonBatch(v0, store[0, cells, S, 0, start], priority, kills, survival, above,
                        tuple(failures))
 
 
-def _forward(grid: Grid, tg, priority: np.ndarray
-             ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _forward(grid: Grid, tg: Targets, policies: _Policies, keys: np.ndarray,
+             handling: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Expected kills, survival by day and the end-of-season chance of being in condition.
 
     The conventions of :func:`riskdiet.core.chain.season_outlook`: a step started on day
     t ends on day min(t + 1 + H_i, T); an animal in the middle of a step it survives
-    counts as alive; kills count on the start day.
+    counts as alive; kills count on the start day. Arrivals are kept by day, level 0
+    (death) included, on days up to T + max H_i; those on or after day T are the
+    end of the season.
     """
     batch = grid.cost.shape[0]
     days, m, n_prey = grid.season_days, grid.n_living, grid.n_prey
-    size = 2 * m
-    total = batch * size
-    offset = (np.arange(batch) * size)[:, None, None, None]
-    handling = grid.handling.astype(np.intp)
-    arrivals = np.zeros((days + 1, total))
-    arrivals[0, np.arange(batch) * size + grid.start_level - 1] = 1.0
-    transit = np.zeros((days + 2, batch))
-    kills = np.zeros((batch, n_prey))
-    cell_of = np.repeat(np.arange(batch), size)
-    width = int(handling.max(initial=0)) + 1  # days ahead a step can end
+    levels = grid.n + 1
+    ahead = int(handling.max(initial=0))
+    span = ahead + 1
+    arrivals = np.zeros((days + 1 + ahead, batch, 2, levels))
+    arrivals[0, np.arange(batch), 0, grid.start_level] = 1.0
+    transit = np.zeros((days + 2 + ahead, batch))
+    attacks = np.zeros((n_prey, batch, 2, m))  # expected attacks by start state
+
+    moves = forward_moves(grid, tg, handling, ahead)
+    n_quiet, n_cap = batch * 2 * m, batch * 2 * m * n_prey
+    flows = np.empty(n_quiet + 2 * n_cap)
+    f_quiet = flows[:n_quiet].reshape(batch, 2, m)
+    f_cap = flows[n_quiet:n_quiet + n_cap].reshape(n_prey, batch, 2, m)
+    f_inj = flows[n_quiet + n_cap:].reshape(n_prey, batch, 2, m)
+
+    # chances per attack, prey first: (P, B, 2, 1)
+    alive3 = (1.0 - grid.mortality)[:, :, None]
+    alive = alive3[None]
+    f4 = grid.fatality.T[:, :, None, None]
+    s4 = np.moveaxis(grid.capture, -1, 0)[..., None]
+    q4 = grid.injury_chance.T[:, :, None, None]
+    kill_c = alive * (1.0 - f4) * s4
+    # an attack leaves a quiet day unless it kills, injures or captures
+    not_quiet = 1.0 - (1.0 - f4) * (1.0 - s4) * (1.0 - q4)
+    capture_c = kill_c * np.moveaxis(tg.survive_handling, -1, 0)[..., None]
+    injury_c = alive * (1.0 - f4) * (1.0 - s4) * q4
     for t in range(days):
-        mass = arrivals[t]
+        mass = arrivals[t, :, :, 1:]
         if not mass.any():
             continue
-        attack_prob = attack_probabilities(grid.encounter_prob, priority[t].astype(np.intp))
-        kill = kill_probabilities(grid, attack_prob)
-        source = mass.reshape(batch, 2, m)[..., None]
-        kills += (source * kill).sum((1, 2))
-        where, weight = [], []
-        for o in outcomes(grid, tg, attack_prob):
-            if o.captured:
-                ahead = np.minimum(t + 1 + handling, days)[:, None, None, :] - (t + 1)
-            else:
-                ahead = np.zeros((batch, 1, 1, 1), dtype=np.intp)
-            ahead = np.broadcast_to(ahead, o.prob.shape)
-            flow = source * o.prob
-            for level, wt in ((o.split.low, 1.0 - o.split.weight),
-                              (o.split.low + 1, o.split.weight)):
-                level = np.broadcast_to(level, o.prob.shape)
-                mass_to = flow * wt
-                living = (mass_to > 0) & (level >= 1)
-                healthy = mass_to * o.healthy_share
-                for cond, val in ((0, healthy), (1, mass_to - healthy)):
-                    keep = living & (val > 0)
-                    target = np.broadcast_to(offset + cond * m + level - 1, o.prob.shape)
-                    where.append(ahead[keep] * total + target[keep])
-                    weight.append(val[keep])
-        where_all, weight_all = np.concatenate(where), np.concatenate(weight)
-        span = min(width, days - t)
-        landed = np.bincount(where_all, weight_all, minlength=span * total)
-        arrivals[t + 1:t + 1 + span] += landed.reshape(span, total)
-        # mass in the middle of a step it survives is alive on the days in between
-        moved = landed.reshape(span, batch, size).sum(2)
-        for k in range(1, span):
-            transit[t + 1] += moved[k]
-            transit[t + 1 + k] -= moved[k]
-    in_transit = np.cumsum(transit, axis=0)[: days + 1]
-    alive = np.zeros((days + 1, batch))
-    for t in range(days + 1):
-        alive[t] = np.bincount(cell_of, arrivals[t], minlength=batch)
-    survival = np.clip(alive + in_transit, 0.0, 1.0).T
-    levels = np.tile(np.arange(1, m + 1), 2)
-    good = levels[None, :] >= grid.terminal_level[:, None]
-    above = (arrivals[days].reshape(batch, size) * good).sum(1)
+        prob = policies.attack_probabilities(keys[t])
+        attacked = mass * prob
+        attacks += attacked
+        f_quiet[...] = mass * alive3 * (1.0 - (prob * not_quiet).sum(0))
+        np.multiply(attacked, capture_c, out=f_cap)
+        np.multiply(attacked, injury_c, out=f_inj)
+        landed = (moves @ flows).reshape(span, batch, 2, levels)
+        arrivals[t + 1:t + 1 + span] += landed
+        if ahead:
+            # mass in the middle of a step it survives is alive on the days in between
+            moved = landed[1:].sum((2, 3))
+            transit[t + 1] += moved.sum(0)
+            transit[t + 2:t + 2 + ahead] -= moved
+    kills = (attacks * kill_c).sum((2, 3)).T
+    in_transit = np.cumsum(transit, axis=0)[:days]
+    alive_by_day = np.empty((days + 1, batch))
+    alive_by_day[:days] = arrivals[:days, :, :, 1:].sum((2, 3)) + in_transit
+    final = arrivals[days:, :, :, 1:].sum(0)
+    alive_by_day[days] = final.sum((1, 2))
+    survival = np.clip(alive_by_day, 0.0, 1.0).T
+    good = np.arange(1, m + 1)[None, :] >= grid.terminal_level[:, None]
+    above = (final * good[:, None, :]).sum((1, 2))
     return kills, survival, above
