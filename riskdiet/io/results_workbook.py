@@ -7,7 +7,7 @@ from pathlib import Path
 
 from riskdiet.analysis.results import StudyResult
 from riskdiet.io.atomic import OutputSet, write_atomic
-from riskdiet.io.results_tables import Table, results_tables, table_names
+from riskdiet.io.results_tables import Table, glossary_table, results_tables, table_names
 from riskdiet.model import Study
 
 
@@ -130,6 +130,9 @@ def write_results_workbook(result: StudyResult, path: str | Path, force: bool = 
     from openpyxl import Workbook
 
     tables = results_tables(result, date) + list(extra_tables)
+    if extra_tables:  # the Glossary names the extra sheets' headers too
+        tables = [glossary_table([t for t in tables if t.name != "Glossary"])
+                  if t.name == "Glossary" else t for t in tables]
     source = (Path(result.study.source),) if result.study.source else ()
     day = dt.date.fromisoformat(_date_of(tables))
 
@@ -175,6 +178,9 @@ def write_results_csv(result: StudyResult, folder: str | Path, force: bool = Fal
                       date: str | None = None, outputs: OutputSet | None = None) -> list[Path]:
     """Write the same tables as CSV files (UTF-8, one header row) into a folder.
 
+    The CSV header row holds each column's key (as in JSON), for programs; the
+    workbook shows the same columns' words.
+
     All files are written together or not at all (see :class:`OutputSet`).
     """
     tables = results_tables(result, date)
@@ -190,7 +196,7 @@ def write_results_csv(result: StudyResult, folder: str | Path, force: bool = Fal
             def write(tmp: Path, table: Table = table) -> None:
                 with open(tmp, "w", newline="", encoding="utf-8") as fh:
                     out = csv.writer(fh)
-                    out.writerow(table.header)
+                    out.writerow(table.column_keys)
                     for row in table.rows:
                         out.writerow(["" if v is None else v for v in row])
             outputs.stage(p, write)

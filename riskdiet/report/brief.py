@@ -30,6 +30,7 @@ from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import BaseDocTemplate, Frame, PageTemplate, Spacer
 
 from riskdiet.analysis.results import StudyResult
+from riskdiet.analysis.wording import percent, percent_change, technical
 from riskdiet.core.solver import DIRECT_LIMIT, MAX_POLICY_ITERATIONS, SOLVE_TOLERANCE
 from riskdiet.errors import Problem, StudyError
 from riskdiet.model import Study
@@ -221,17 +222,17 @@ def _appendix(b: Builder, plan: BriefPlan) -> None:
         tj = f"J = {g.top}" if s.currency == "breeding" else f"T = {g.season_days}"
         rows.append([esc(s.name), s.currency, str(g.n), _num(g.step_mj, 4), tj,
                      esc(s.linear_solver), str(s.iterations), "yes" if s.converged else "no",
-                     f"{s.residual:.1e}"])
+                     technical(s.residual)])
     b.tables(rows, [Column(max_share=0.2)] + [NUM] * 4
              + [Column(max_share=0.16)] + [NUM] * 3,
              note="Breeding currency: policy iteration from the default (reserve-maximising) "
                   "attack sets, a state switching only on a strict gain, each policy evaluated "
                   f"exactly by a linear solve (sparse LU up to {DIRECT_LIMIT} unknowns; above, "
                   "BiCGSTAB accepted only when its residual in every state is below "
-                  f"{SOLVE_TOLERANCE:g} of that state's terms), at most "
+                  f"{technical(SOLVE_TOLERANCE)} of that state's terms), at most "
                   f"{MAX_POLICY_ITERATIONS} rounds; the residual is the largest change one "
                   "more Bellman update would make, relative to each state's value (a solve "
-                  "above 1e-9 is refused). Season currency: backward induction over "
+                  f"above {technical(1e-9)} is refused). Season currency: backward induction over "
                   "the days of the season (exact; rounds = days). Reserves "
                   "x<sub>j</sub> = j·R/n; level 0 is death by starvation.")
     b.sub("Grid check")
@@ -246,15 +247,15 @@ def _appendix(b: Builder, plan: BriefPlan) -> None:
         verdict = (esc(g.problem) if g.problem else esc(g.warning) if g.warning
                    else "fine enough")
         rows.append([esc(s.name), f"{g.levels_compared[0]} vs {g.levels_compared[1]}",
-                     "—" if fit is None else f"{100 * fit:+.2f} %",
-                     "—" if largest is None else f"{100 * largest:.1f} %", verdict])
+                     "—" if fit is None else percent_change(fit, decimals=2),
+                     "—" if largest is None else percent(largest, 1), verdict])
     b.tables(rows, [Column(max_share=0.2)] + [NUM] * 3 + [Column(max_share=0.45)],
              note="Each scenario is solved again on a second grid (about half as many energy "
                   "levels; twice as many below 20) and the relative changes are compared. A "
                   "warning is given when fitness changes by more than 0.01 and 5 %, or when "
                   "the kills of a prey or group making at least 1 % of kills change by more "
                   "than 5 %: the answer then still depends on the grid, and a larger "
-                  "energy_levels should be used.")
+                  "number of energy levels should be used.")
     b.sub("Methods")
     b.bullets([
         "Decisions by reserves and condition: stochastic dynamic programming of a "

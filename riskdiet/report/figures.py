@@ -21,6 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult
+from riskdiet.analysis.wording import amount, percent, value
 from riskdiet.report.figure_style import (
     DPI_EXPORT,
     LINE_STYLES,
@@ -120,7 +121,7 @@ def decision_figure(result: ScenarioResult) -> object:
         for ax in axes:
             ax.axvline(start, color="#000000", linestyle=(0, (4, 2)), linewidth=0.9)
         extra.append(Line2D([], [], color="#000000", linestyle=(0, (4, 2)), linewidth=0.9,
-                            label=f"start reserves ({100 * start:.0f} %)"))
+                            label=f"reserves at release ({percent(start)})"))
         day = ", policy of day 0" if result.currency == "season" else ""
         bands.set_title(f"Scenario “{short_label(result.name, 60)}”{day}: prey worth attacking "
                         "when met", loc="left")
@@ -132,12 +133,12 @@ def decision_figure(result: ScenarioResult) -> object:
                        linestyle=("-", "--")[k], linewidth=(1.4, 1.6)[k], label=cond,
                        gid=f"fitness:{cond}")
         curve.set_ylim(-0.02, 1.02)
-        curve.set_ylabel("probability")
+        curve.set_ylabel("chance")
         curve.set_title(f"{_what(result).capitalize()}, from each level of reserves", loc="left")
         curve.set_xlim(0, 1)
         curve.xaxis.set_major_formatter(_percent_formatter())
-        curve.set_xlabel(f"reserves (fraction of capacity; 100 % = {capacity:g} MJ)")
-        curve.legend(loc="upper left", title="condition", frameon=False)
+        curve.set_xlabel(f"reserves (share of capacity; 100 % = {value(capacity)} MJ)")
+        curve.legend(loc="upper left", title="the animal is", frameon=False)
         curve.grid(axis="y", color="#dddddd", linewidth=0.5)
         top = bands.secondary_xaxis("top", functions=(lambda f: f * capacity,
                                                       lambda mj: mj / capacity))
@@ -247,7 +248,7 @@ def kills_figure(result: StudyResult, currency: str = "breeding") -> object | No
 
 
 def _count(v: float) -> str:
-    return f"{v:.1f}" if v < 100 else f"{v:.0f}"
+    return amount(v)
 
 
 def season_figure(result: StudyResult) -> object | None:
@@ -291,6 +292,8 @@ def season_figure(result: StudyResult) -> object | None:
         left.set_xlabel("day of the season")
         right.set_xlabel("day of the season")
         left.set_title("Chance of being alive", loc="left")
+        left.set_ylabel("chance")
+        right.set_ylabel("share of capacity")
         right.set_title("Mean reserves of the living", loc="left")
         for ax in (left, right):
             ax.grid(color="#dddddd", linewidth=0.5)
