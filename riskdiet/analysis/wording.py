@@ -181,7 +181,8 @@ def change(delta, kind: str = "count") -> str:
     delta : float or None
         The change (new − old); None gives an empty string.
     kind : {"count", "probability", "fraction", "number"}
-        ``count``: as :func:`count`; ``probability``: two places;
+        ``count``: as :func:`amount` (whole from 10 up, one decimal below, so that
+        a column of changes has one precision); ``probability``: two places;
         ``fraction``: percentage points; ``number``: three significant figures.
 
     Returns
@@ -202,8 +203,10 @@ def change(delta, kind: str = "count") -> str:
         if round_half_up(d, 2) == 0:
             return "0" if d == 0 else "< 0.01"
         return f"{'+' if d > 0 else ''}{fixed(d, 2)}"
-    text = count(abs(d)) if kind == "count" else number(abs(d))
-    if text == "0" or text.startswith("<"):
+    if d == 0:
+        return "0"
+    text = amount(abs(d)) if kind == "count" else number(abs(d))
+    if text.startswith("<"):
         return text
     return f"{'+' if d > 0 else '-'}{text}"
 

@@ -36,7 +36,7 @@ from riskdiet.errors import Problem, StudyError
 from riskdiet.model import Study
 from riskdiet.report import figures as figs
 from riskdiet.report.figure_style import DPI_BRIEF
-from riskdiet.report.fonts import FontSet, register_fonts
+from riskdiet.report.fonts import FontSet, draw_string, register_fonts
 from riskdiet.report.layout import (
     MARGIN_BOTTOM,
     MARGIN_SIDE,
@@ -50,6 +50,7 @@ from riskdiet.report.layout import (
     make_table,
 )
 from riskdiet.report.map_section import map_section
+from riskdiet.report.metadata import attach_xmp
 from riskdiet.report.sections import MAPS, NUM, REFERENCES, SECTIONS, Builder, _num
 
 __all__ = ["SECTIONS", "BriefPlan", "brief_date", "brief_story", "build_brief", "write_brief"]
@@ -359,7 +360,7 @@ def _page_decorations(plan: BriefPlan):
             title = title[:-2].rstrip() + "…"
             title = title[:-1] if title.endswith("……") else title
         y = page_h - MARGIN_TOP + 10 * mm
-        canvas.drawString(MARGIN_SIDE, y, title)
+        draw_string(canvas, MARGIN_SIDE, y, title, fonts.regular, 8)
         canvas.drawRightString(page_w - MARGIN_SIDE, y, right)
         canvas.setStrokeColor(colors.HexColor("#9a9a9a"))
         canvas.setLineWidth(0.5)
@@ -398,6 +399,7 @@ def _numbered_canvas(plan: BriefPlan) -> type[Canvas]:
                                      f"page {self._pageNumber} of {total}")
                 Canvas.showPage(self)
             self.showOutline()
+            attach_xmp(self, LANGUAGE)
             Canvas.save(self)
 
     return NumberedCanvas

@@ -138,7 +138,7 @@ def format_delta(delta, pct, kind: str) -> str:
     if delta is None:
         return ""
     text = change(delta, "count" if kind not in ("fraction", "probability") else kind)
-    if kind == "fraction" or text in ("0", "0 pts") or pct is None:
+    if kind == "fraction" or text in ("0", "0 pts") or text.startswith("<") or pct is None:
         return text
     return f"{text} ({percent_change(pct / 100)})"
 

@@ -37,9 +37,12 @@ def interval_text(s: ScenarioUncertainty, outcome: str, name: str | None) -> str
 
 
 def index_text(value: float, low: float, high: float) -> str:
-    """An index with its interval, "≈ 0" when the interval reaches 0."""
+    """An index with its interval, "≈ 0 (up to …)" when the interval reaches 0, and
+    "< 0.001" when even its upper end is below that."""
+    if high < 0.0005:
+        return "< 0.001"
     if low <= 0:
-        return f"≈ 0 ({fmt(max(value, 0.0))}; {fmt(low)} to {fmt(high)})"
+        return f"≈ 0 (up to {fmt(high)})"
     return f"{fmt(value)} ({fmt(low)} to {fmt(high)})"
 
 
