@@ -122,7 +122,7 @@ def compare_grids(n_pair: tuple[int, int], fitness: tuple[float, float],
     warning = None
     if reasons:
         warning = (f"The answer still depends on the grid: between {n_pair[0]} and {n_pair[1]} "
-                   f"energy levels {' and '.join(reasons)}. Use a larger energy_levels "
+                   f"energy levels {' and '.join(reasons)}. Use a larger number of energy levels "
                    f"(for example {min(2000, 2 * max(n_pair))}) before relying on these numbers.")
     return GridCheck(n_pair, fit_change, k, kg, c, cg, largest, warning)
 

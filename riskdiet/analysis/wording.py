@@ -50,7 +50,10 @@ def round_half_up(x: float, decimals: int = 0) -> float:
         point).
     """
     scale = 10.0 ** decimals
-    y = math.floor(abs(x) * scale + 0.5 + 1e-9) / scale
+    scaled = abs(x) * scale
+    if not math.isfinite(scaled) or scaled >= 2.0 ** 52:
+        return x  # already a whole number at that place (or unbounded)
+    y = math.floor(scaled + 0.5 + 1e-9) / scale
     return -y if x < 0 else y
 
 
@@ -58,6 +61,8 @@ def fixed(x: float, decimals: int) -> str:
     """``x`` with exactly ``decimals`` places, rounded half up, thousands
     separated, never ``-0``."""
     y = round_half_up(x, decimals)
+    if math.isinf(y):
+        return "∞" if y > 0 else "−∞"
     if y == 0:
         y = 0.0
     return f"{y:,.{max(decimals, 0)}f}"
@@ -69,6 +74,8 @@ def _decimals_for(x: float, sig: int) -> int:
         return 0
     exponent = math.floor(math.log10(abs(x)))
     d = sig - 1 - exponent
+    if d <= 0:
+        return 0  # whole numbers keep all their digits
     # the rounding may carry into a new digit (9.996 -> 10.0): one place fewer
     if abs(round_half_up(x, d)) >= 10.0 ** (exponent + 1):
         d -= 1

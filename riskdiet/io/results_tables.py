@@ -280,13 +280,14 @@ def glossary_table(tables: list[Table]) -> Table:
     rows = [[term, meaning, ""] for term, meaning in TERMS]
     rows += [[words_, meaning, key] for words_, key, meaning in field_glossary()]
     seen: set[tuple[str, str]] = set()
-    for table in tables:
+    own = Table.from_keys("Glossary", "", ["term", "meaning", "key"], [])
+    for table in [*tables, own]:
         for header, key in zip(table.header, table.column_keys, strict=True):
             if header != key and (header, key) not in seen:
                 seen.add((header, key))
                 rows.append([header, f"Column of the {table.name} sheet.", key])
     return Table.from_keys("Glossary", "Terms used in these results, the inputs and the "
-                           "column headers by name", ["term", "meaning", "key"], rows,
+                           "column headers by name", own.keys, rows,
                            notes=["Study workbooks, JSON files and the CSV tables name inputs "
                                   "and columns by their keys; this workbook names them in "
                                   "words."])

@@ -143,7 +143,7 @@ def grid_summary(result: StudyResult) -> str:
     if flagged:
         return ("Accuracy: the numbers of " + _list(flagged) + " still depend on the number of "
                 "energy levels (see the grid check in the technical appendix); treat them as "
-                "rough until the study is solved with a larger energy_levels.")
+                "rough until the study is solved with a larger number of energy levels.")
     levels = {g.levels_compared for _, g in checks if not g.problem}
     pair = (f" between {next(iter(levels))[0]} and {next(iter(levels))[1]} energy levels"
             if len(levels) == 1 else "")
