@@ -6,8 +6,8 @@ import json
 from pathlib import Path
 
 import riskdiet
-from riskdiet.analysis.wording import amount
 from riskdiet.analysis.compare import entry_reserves
+from riskdiet.analysis.wording import amount
 from riskdiet.validation import build_study
 
 EXAMPLE = Path(__file__).resolve().parents[2] / "examples" / "harrow-vale.json"
