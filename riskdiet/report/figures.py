@@ -37,6 +37,7 @@ from riskdiet.report.figure_style import (
     slug,
     svg_bytes,
 )
+from riskdiet.report.fonts import FALLBACK_FAMILIES, needs_fallback
 from riskdiet.report.map_figures import map_figures
 
 
@@ -156,7 +157,14 @@ def _freeze(fig):
 
     Constrained layout refines positions on each draw; a frozen layout gives the
     same bytes however often, and at whatever resolution, a figure is saved.
+    Texts with characters DejaVu Sans lacks (a prey name in another script) get
+    matplotlib's font fallback to the same fonts as the PDF text.
     """
+    from matplotlib.text import Text
+
+    for text in fig.findobj(Text):
+        if needs_fallback(text.get_text()):
+            text.set_fontfamily(["DejaVu Sans", *FALLBACK_FAMILIES])
     fig.draw_without_rendering()
     fig.set_layout_engine(None)
     return fig

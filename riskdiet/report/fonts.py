@@ -123,6 +123,17 @@ SYSTEM_FONT_FOLDERS = ("/usr/share/fonts", "/usr/local/share/fonts",
 """Folders searched, in sorted file order, for a TrueType font covering a character
 that neither DejaVu Sans nor the bundled fallbacks can draw (e.g. CJK)."""
 
+FALLBACK_FAMILIES = ("STIXGeneral", "DejaVu Serif")
+"""The same bundled fallbacks by their family names, for matplotlib's font fallback."""
+
+
+def needs_fallback(text: str) -> bool:
+    """Whether ``text`` holds a character the text font (DejaVu Sans) has no glyph for."""
+    cmap = _character_map()
+    return (not text.isascii() and cmap is not None
+            and any(ord(c) not in cmap and not c.isspace() for c in text))
+
+
 _FALLBACKS: list[tuple[str, str, set[int]]] = []
 _SYSTEM: list[tuple[str, str, set[int]]] = []
 _SYSTEM_SCANNED: list[bool] = []

@@ -3,7 +3,15 @@
 from __future__ import annotations
 
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult
-from riskdiet.analysis.wording import amount, change, number, percent_change, probability, technical
+from riskdiet.analysis.wording import (
+    amount,
+    change,
+    number,
+    percent_change,
+    probability,
+    technical,
+    value,
+)
 from riskdiet.analysis.wording import percent as _percent
 
 
@@ -18,7 +26,7 @@ def ranges_text(result: ScenarioResult, prey: str, condition: str) -> str:
     if not runs:
         return "never"
     parts = [f"{percent(r.low_fraction)[:-2]}–{percent(r.high_fraction)} "
-             f"({number(r.low_mj)}–{number(r.high_mj)} MJ)" for r in runs]
+             f"({value(r.low_mj, 3)}–{value(r.high_mj, 3)} MJ)" for r in runs]
     return ", ".join(parts)
 
 
@@ -39,7 +47,7 @@ def scenario_summary(result: ScenarioResult) -> str:
     for cond in CONDITIONS:
         article = "an" if cond[0] in "aeiou" else "a"
         lines.append(f"  Prey attacked by {article} {cond} animal, by reserves (fraction of "
-                     f"{number(p.reserve_capacity_mj, 4)} MJ):")
+                     f"{value(p.reserve_capacity_mj)} MJ):")
         for name in result.prey_names:
             lines.append(f"    {name:<{width}}  {ranges_text(result, name, cond)}")
     el = result.elasticity
@@ -99,7 +107,7 @@ def grid_check_line(result: ScenarioResult) -> str:
     if g.warning:
         return f"Grid check: WARNING. {g.warning}"
     change = g.fitness_relative_change
-    text = "—" if change is None else percent_change(change)
+    text = "—" if change is None else percent_change(change, decimals=2)
     return (f"Grid check: at {g.levels_compared[0]} instead of {g.levels_compared[1]} energy "
             f"levels fitness changes by {text} and no kill estimate by more than 5 %: "
             "fine enough")
