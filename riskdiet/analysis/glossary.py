@@ -123,8 +123,8 @@ RESULT_WORDS = {
     "switching_threshold_per_day": "Switching threshold [encounters of better prey a day]",
     # provenance
     "record": "Predator or prey",
-    "input": "Input [unit]",
-    "key": "Key in study files and JSON",
+    "input": "Input",
+    "key": "Key in study files, JSON and CSV",
     # glossary
     "term": "Term",
     "meaning": "Meaning",

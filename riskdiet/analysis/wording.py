@@ -49,6 +49,8 @@ def round_half_up(x: float, decimals: int = 0) -> float:
         section 3; the 1e−9 keeps 0.145 × 100 at 15 despite binary floating
         point).
     """
+    if decimals > 300:
+        return x  # far below anything shown (see SMALLEST)
     scale = 10.0 ** decimals
     scaled = abs(x) * scale
     if not math.isfinite(scaled) or scaled >= 2.0 ** 52:
@@ -66,6 +68,10 @@ def fixed(x: float, decimals: int) -> str:
     if y == 0:
         y = 0.0
     return f"{y:,.{max(decimals, 0)}f}"
+
+
+SMALLEST = 1e-9
+"""Below this, even a number shown in full (no floor) reads ``< 0.000000001``."""
 
 
 def _decimals_for(x: float, sig: int) -> int:
@@ -93,7 +99,7 @@ def number(x, sig: int = 3, floor: float | None = 0.001, unbounded: str = "∞")
         Significant figures (whole numbers from 10^sig up keep all their digits).
     floor : float or None
         Positive values below it read ``< floor`` (negative ones ``> −floor``);
-        None shows any value however small, positionally.
+        None shows small values positionally down to :data:`SMALLEST`.
     unbounded : str
         Text for +infinity.
     """
@@ -108,7 +114,8 @@ def number(x, sig: int = 3, floor: float | None = 0.001, unbounded: str = "∞")
         return unbounded if x > 0 else "−" + unbounded
     if x == 0:
         return "0"
-    if floor is not None and abs(x) < floor:
+    floor = SMALLEST if floor is None else floor
+    if abs(x) < floor:
         return f"< {plain(floor)}" if x > 0 else f"> -{plain(floor)}"
     return fixed(x, _decimals_for(x, sig))
 
@@ -125,8 +132,8 @@ def value(x, sig: int = 4) -> str:
     if _missing(x) or isinstance(x, (bool, int)) or math.isinf(float(x)):
         return number(x)
     x = float(x)
-    if x == 0:
-        return "0"
+    if x == 0 or abs(x) < SMALLEST:
+        return number(x, floor=SMALLEST)
     text = fixed(x, _decimals_for(x, sig))
     if "." in text:
         text = text.rstrip("0").rstrip(".")
