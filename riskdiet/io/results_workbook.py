@@ -12,6 +12,8 @@ from riskdiet.model import Study
 
 
 def _write_sheet(ws, table: Table) -> None:
+    import textwrap
+
     from openpyxl.styles import Alignment, Font
     from openpyxl.utils import get_column_letter
 
@@ -33,10 +35,18 @@ def _write_sheet(ws, table: Table) -> None:
             if isinstance(cell.value, (int, float)) and not isinstance(cell.value, bool):
                 cell.number_format = fmt
     ws.freeze_panes = ws.cell(row=header_row + 1, column=1)
+    header_lines = 1
     for i, name in enumerate(table.header, start=1):
-        longest = max([len(str(name))] + [len(str(r[i - 1])) for r in table.rows[:200]
-                                          if len(r) >= i and r[i - 1] is not None])
-        ws.column_dimensions[get_column_letter(i)].width = min(max(10, longest + 2), WIDEST)
+        # headers are words with units: they wrap over up to HEADER_LINES lines, so a
+        # column is as wide as its values (and the header's longest word) need
+        head = str(name)
+        word = max((len(w) for w in head.split()), default=0)
+        longest = max([word, -(-len(head) // HEADER_LINES)]
+                      + [len(_shown(r[i - 1])) for r in table.rows[:200]
+                         if len(r) >= i and r[i - 1] is not None])
+        width = min(max(10, longest + 2), WIDEST)
+        ws.column_dimensions[get_column_letter(i)].width = width
+        header_lines = max(header_lines, len(textwrap.wrap(head, max(width - 2, 1))))
         if longest + 2 > WIDEST:  # long text (findings, notes) wraps inside its column
             for r in range(header_row + 1, ws.max_row + 1):
                 cell = ws.cell(row=r, column=i)
@@ -47,11 +57,23 @@ def _write_sheet(ws, table: Table) -> None:
                     height = LINE_POINTS * lines
                     current = ws.row_dimensions[r].height or 0
                     ws.row_dimensions[r].height = max(current, height)
+    if header_lines > 1:
+        ws.row_dimensions[header_row].height = LINE_POINTS * header_lines
     _print_setup(ws, header_row, len(table.header))
 
 
 WIDEST = 60
 """Widest column [characters]; longer text wraps."""
+HEADER_LINES = 3
+"""Lines a header may wrap over before its column is widened."""
+
+
+def _shown(value) -> str:
+    """A cell's value roughly as a spreadsheet shows it (numbers with their format's few
+    decimals, not every binary digit)."""
+    if isinstance(value, float):
+        return f"{value:,.4g}"
+    return str(value)
 LINE_POINTS = 15
 """Height of one line of wrapped text [pt]."""
 

@@ -292,6 +292,13 @@ def _appendix(b: Builder, plan: BriefPlan) -> None:
 
     b.tables([["term", "meaning"]] + [[esc(t), esc(m)] for t, m in TERMS],
              [Column(max_share=0.25), Column(max_share=0.75)])
+    from riskdiet.analysis.glossary import field_glossary
+
+    b.para("Inputs are named in words in this brief; study workbooks and JSON files name them "
+           "by these keys:", b.s.small)
+    pairs = dict.fromkeys((w, k) for w, k, _ in field_glossary() if w != k)
+    b.tables([["input", "key"]] + [[esc(w), esc(k)] for w, k in pairs],
+             [Column(max_share=0.5), Column(max_share=0.5, mono=True)])
     b.sub("References")
     for ref in REFERENCES:
         b.para(esc(ref), b.s.small)
