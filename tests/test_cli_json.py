@@ -127,7 +127,7 @@ def test_grid_check_flags_a_coarse_study_and_not_a_fine_one(tmp_path):
     flagged = _strict(runner.invoke(app, ["solve", str(coarse), "--json"]).stdout)
     check = flagged["scenarios"][0]["grid_check"]
     assert check["levels_compared"] == [20, 10]
-    assert check["warning"] and "energy_levels" in check["warning"]
+    assert check["warning"] and "larger number of energy levels" in check["warning"]
     calm = _strict(runner.invoke(app, ["solve", str(fine), "--json"]).stdout)
     check = calm["scenarios"][0]["grid_check"]
     assert check["levels_compared"] == [100, 200]

@@ -12,7 +12,15 @@ import numpy as np
 
 from riskdiet.analysis.regimes import when_attacked
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult
-from riskdiet.analysis.wording import amount
+from riskdiet.analysis.wording import (
+    amount,
+    change,
+    fixed,
+    number,
+    percent,
+    percent_change,
+    probability,
+)
 
 WILD_GROUPS = {"wild", ""}
 _KINDS = ("never", "all", "below", "above", "mixed")
@@ -61,7 +69,7 @@ def attack_pattern(result: ScenarioResult, prey: str, condition: str) -> AttackP
 
 
 def _pct(x: float) -> str:
-    return f"{100 * x:.0f} %"
+    return percent(x)
 
 
 def _list(names: list[str]) -> str:
@@ -77,7 +85,7 @@ def _span(a: float, b: float) -> str:
 def _describe(pattern: AttackPattern, name: str, mj_per_fraction: float) -> str:
     if pattern.kind == "below":
         return (f"{name} only when reserves are below about {_pct(pattern.upper)} "
-                f"({pattern.upper * mj_per_fraction:.0f} MJ)")
+                f"({fixed(pattern.upper * mj_per_fraction, 0)} MJ)")
     if pattern.kind == "above":
         if pattern.lower < 0.15:
             return (f"{name} except when reserves are nearly exhausted (below "
@@ -100,7 +108,7 @@ def cohort_sentences(result: ScenarioResult) -> list[str]:
     out = [f"The {c.animals} released {animals} are expected to kill {kills} prey {when}."]
     median = ("more than half are expected to be alive at the end" if c.median_survival_days
               is None else f"half are expected to be dead within {c.median_survival_days} days")
-    alive = (f"{100 * c.alive_at_horizon:.0f} % of them" if c.alive_at_horizon >= 0.005
+    alive = (f"{percent(c.alive_at_horizon)} of them" if c.alive_at_horizon >= 0.005
              else "almost none of them")
     out.append(f"{alive[0].upper()}{alive[1:]} are expected to be alive at the end "
                f"({amount(c.survivors)} animals); {median}"
@@ -122,37 +130,38 @@ def _kills_sentence(result: ScenarioResult) -> list[str]:
         k = result.kills
         per_year = k.kills_per_predator_per_year
         order = sorted(per_year, key=per_year.get, reverse=True)
-        main = [f"{per_year[n]:.1f} {n}" for n in order if per_year[n] >= 0.05][:4]
+        main = [f"{amount(per_year[n])} {n}" for n in order if per_year[n] >= 0.05][:4]
         if main:
             out.append(f"In the long run, each place kept filled (every death replaced at once) "
                        f"sees about {_list(main)} killed a year"
                        + (f"; for {pop} places, "
-                          + _list([f"{k.kills_per_year_population[n]:.0f} {n}"
+                          + _list([f"{amount(k.kills_per_year_population[n])} {n}"
                                    for n in order if per_year[n] >= 0.05][:4]) + " a year."
                           if pop > 1 else "."))
         unwanted = {g: v for g, v in k.kills_per_year_population_by_group.items()
                     if g.lower() not in WILD_GROUPS}
         for group, value in unwanted.items():
-            out.append(f"Long-run {group} kills with every death replaced: {value:.1f} a year "
-                       f"({100 * k.diet_share_by_number_by_group.get(group, 0):.0f} % of kills "
+            out.append(f"Long-run {group} kills with every death replaced: {amount(value)} a "
+                       f"year ({percent(k.diet_share_by_number_by_group.get(group, 0))} of kills "
                        "by number).")
-        out.append(f"A predator spends {100 * k.share_of_time_injured:.0f} % of its days "
+        out.append(f"A predator spends {_pct(k.share_of_time_injured)} of its days "
                    f"injured; mean reserves are {_pct(k.mean_reserves_fraction)} of capacity.")
         if k.expected_lifetime_days is not None:
-            out.append(f"A newly arrived animal lives about {k.expected_lifetime_days:.0f} days "
-                       "on average; of newcomers, "
-                       f"{100 * k.death_before_breeding.get('starvation', 0):.0f} % starve, "
-                       f"{100 * k.death_before_breeding.get('attack', 0):.0f} % are killed by "
-                       f"prey and {100 * k.death_before_breeding.get('other', 0):.0f} % die of "
+            out.append(f"A newly arrived animal lives about {amount(k.expected_lifetime_days)} "
+                       "days on average; of newcomers, "
+                       f"{_pct(k.death_before_breeding.get('starvation', 0))} starve, "
+                       f"{_pct(k.death_before_breeding.get('attack', 0))} are killed by "
+                       f"prey and {_pct(k.death_before_breeding.get('other', 0))} die of "
                        "other causes before they first breed.")
     if result.season_kills is not None:
         s = result.season_kills
-        main = [f"{v:.1f} {n}" for n, v in sorted(s.expected_kills.items(),
+        main = [f"{amount(v)} {n}" for n, v in sorted(s.expected_kills.items(),
                                                   key=lambda kv: -kv[1]) if v >= 0.05][:4]
         if main:
             out.append(f"Over the season each predator is predicted to kill about {_list(main)}.")
-        out.append(f"It survives the season with probability {s.survival_to_end:.2f} and ends "
-                   f"it in condition with probability {s.chance_above_threshold:.2f}.")
+        out.append(f"It survives the season with probability {probability(s.survival_to_end)} "
+                   "and ends it in condition with probability "
+                   f"{probability(s.chance_above_threshold)}.")
     return out
 
 
@@ -205,7 +214,7 @@ def findings(result: ScenarioResult, baseline: ScenarioResult | None = None) -> 
     what = ("reaches breeding condition" if result.currency == "breeding"
             else "ends the season alive and in condition")
     out.append(f"A healthy animal arriving with {_pct(p.start_reserves)} reserves {what} with "
-               f"probability {result.fitness_at_start:.2f}.")
+               f"probability {probability(result.fitness_at_start)}.")
     mj = p.reserve_capacity_mj
     for cond in CONDITIONS:
         patterns = {n: attack_pattern(result, n, cond) for n in result.prey_names}
@@ -230,7 +239,7 @@ def findings(result: ScenarioResult, baseline: ScenarioResult | None = None) -> 
         i = attack_pattern(result, prey.name, "injured")
         if h.kind == "below":
             out.append(f"The {prey.group} prey {prey.name} enters the diet when reserves fall "
-                       f"below about {_pct(h.upper)} ({h.upper * mj:.0f} MJ).")
+                       f"below about {_pct(h.upper)} ({fixed(h.upper * mj, 0)} MJ).")
         elif h.kind == "all":
             out.append(f"The {prey.group} prey {prey.name} is taken whenever met, at all "
                        "reserves.")
@@ -256,8 +265,12 @@ def findings(result: ScenarioResult, baseline: ScenarioResult | None = None) -> 
     g = result.marginal_hunting_ability
     if np.isfinite(g):
         el = result.elasticity
-        out.append(f"Each 0.1 of extra hunting ability changes that probability by {0.1 * g:+.3f}"
-                   + (f" (elasticity {el:.2f})." if el is not None and np.isfinite(el) else "."))
+        step = change(0.1 * g, "probability")
+        step = {"0": "nothing", "< 0.01": "less than 0.01"}.get(step, step)
+        out.append(f"Each 0.1 of extra hunting ability changes that probability by {step}"
+                   + (f" (elasticity {number(el, 2, floor=0.01)}: 1 % more ability, about "
+                      f"{number(abs(el), 2, floor=0.01)} % {'more' if el >= 0 else 'less'} "
+                      "chance)." if el is not None and np.isfinite(el) and el != 0 else "."))
     if baseline is not None and baseline is not result:
         out.extend(_versus_baseline(result, baseline))
     return tuple(out)
@@ -266,8 +279,16 @@ def findings(result: ScenarioResult, baseline: ScenarioResult | None = None) -> 
 def _versus_baseline(result: ScenarioResult, baseline: ScenarioResult) -> list[str]:
     out = []
     d = result.fitness_at_start - baseline.fitness_at_start
-    out.append(f"Compared with the baseline, the chance changes by {d:+.2f} "
-               f"(from {baseline.fitness_at_start:.2f} to {result.fitness_at_start:.2f}).")
+    before, after = probability(baseline.fitness_at_start), probability(result.fitness_at_start)
+    step = change(d, "probability")
+    if step == "0":
+        out.append(f"Compared with the baseline, the chance does not change ({after}).")
+    elif step == "< 0.01":
+        out.append(f"Compared with the baseline, the chance changes by less than 0.01 "
+                   f"({after} in both).")
+    else:
+        out.append(f"Compared with the baseline, the chance changes by {step} "
+                   f"(from {before} to {after}).")
     a, b = result.cohort, baseline.cohort
     if a is not None and b is not None:
         for group, base in b.kills_by_group.items():
@@ -275,8 +296,8 @@ def _versus_baseline(result: ScenarioResult, baseline: ScenarioResult) -> list[s
             if base > 0 and abs(new - base) / base >= 0.05:
                 out.append(f"Kills of {group} prey by the released animals within the horizon "
                            f"change from {amount(base)} to {amount(new)} "
-                           f"({100 * (new - base) / base:+.0f} %).")
+                           f"({percent_change((new - base) / base)}).")
         if abs(a.alive_at_horizon - b.alive_at_horizon) >= 0.01:
             out.append(f"The share of released animals alive at the horizon changes from "
-                       f"{100 * b.alive_at_horizon:.0f} % to {100 * a.alive_at_horizon:.0f} %.")
+                       f"{percent(b.alive_at_horizon)} to {percent(a.alive_at_horizon)}.")
     return out

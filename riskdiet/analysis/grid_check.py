@@ -19,6 +19,7 @@ from __future__ import annotations
 import dataclasses
 from dataclasses import dataclass
 
+from riskdiet.analysis.wording import change
 from riskdiet.model import Predator, round_half_up
 
 FITNESS_ABSOLUTE = 0.01
@@ -112,7 +113,7 @@ def compare_grids(n_pair: tuple[int, int], fitness: tuple[float, float],
     cg = _changes(*cohort_by_group)
     reasons = []
     if abs(dv) > FITNESS_ABSOLUTE and (fit_change is None or abs(fit_change) > RELATIVE_LIMIT):
-        reasons.append(f"fitness at the start reserves changes by {dv:+.3f}")
+        reasons.append(f"fitness at the start reserves changes by {change(dv, 'probability')}")
     relevant = [_relevant(k, kills[1]), _relevant(kg, kills_by_group[1]),
                 _relevant(c, cohort[1]), _relevant(cg, cohort_by_group[1])]
     largest = max((v for d in relevant for v in d.values()), default=None)
@@ -122,7 +123,7 @@ def compare_grids(n_pair: tuple[int, int], fitness: tuple[float, float],
     warning = None
     if reasons:
         warning = (f"The answer still depends on the grid: between {n_pair[0]} and {n_pair[1]} "
-                   f"energy levels {' and '.join(reasons)}. Use a larger energy_levels "
+                   f"energy levels {' and '.join(reasons)}. Use a larger number of energy levels "
                    f"(for example {min(2000, 2 * max(n_pair))}) before relying on these numbers.")
     return GridCheck(n_pair, fit_change, k, kg, c, cg, largest, warning)
 

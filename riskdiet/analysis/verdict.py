@@ -14,7 +14,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from riskdiet.analysis.results import ScenarioResult, StudyResult
-from riskdiet.analysis.wording import amount
+from riskdiet.analysis.wording import amount, percent
 from riskdiet.uncertainty_rules import parse_goal
 
 WILD = {"wild", ""}
@@ -103,7 +103,7 @@ def _sentence(s: ScenarioResult, base: ScenarioResult, kind: str, name: str) -> 
         changes = [f"{amount(base.cohort.kills_by_group.get(g, 0.0))} → "
                    f"{amount(c.kills_by_group[g])} {g}" for g in groups]
         lead = f"{s.name}: expected kills by {animals} {_when(s)} change " + ", ".join(changes)
-    alive = f"{100 * c.alive_at_horizon:.0f} %" if c.alive_at_horizon >= 0.005 else "almost none"
+    alive = percent(c.alive_at_horizon) if c.alive_at_horizon >= 0.005 else "almost none"
     tail = f"; {alive} of them alive at the end"
     if c.breeding_events is not None:
         tail += f", {amount(c.breeding_events)} breeding events"

@@ -11,8 +11,10 @@ import re
 from dataclasses import dataclass, field
 
 from riskdiet.analysis.compare import comparison_table
+from riskdiet.analysis.glossary import result_words
 from riskdiet.analysis.results import ScenarioResult, StudyResult
-from riskdiet.fields import field_specs
+from riskdiet.analysis.wording import number, probability, technical
+from riskdiet.fields import UNIT_WORDS, field_specs, words
 from riskdiet.model import Predator, Prey, Study
 
 
@@ -34,6 +36,10 @@ class Table:
         Number format by column index (spreadsheet syntax, e.g. ``0.000``).
     notes : list of str
         Lines shown under the title.
+    keys : list of str
+        The machine name of each column (the CSV header and JSON key); the
+        workbook shows ``header``, the words, and its Glossary sheet maps one
+        to the other. Empty: the header is its own key.
     """
 
     name: str
@@ -42,6 +48,21 @@ class Table:
     rows: list[list]
     formats: dict[int, str] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
+    keys: list[str] = field(default_factory=list)
+
+    @classmethod
+    def from_keys(cls, name: str, title: str, keys: list[str], rows: list[list],
+                  formats: dict[int, str] | None = None,
+                  notes: list[str] | None = None) -> Table:
+        """A table whose header is the words of its column keys
+        (:func:`riskdiet.analysis.glossary.result_words`)."""
+        return cls(name, title, [result_words(k) for k in keys], rows, formats or {},
+                   notes or [], list(keys))
+
+    @property
+    def column_keys(self) -> list[str]:
+        """The key of every column (the header where no keys are given)."""
+        return self.keys or self.header
 
 
 def sheet_name(text: str, taken: set[str]) -> str:
@@ -65,8 +86,8 @@ def _summary(result: StudyResult, date: str) -> Table:
     for s in result.scenarios:
         for i, f in enumerate(s.findings):
             rows.append([s.name if i == 0 else "", f])
-    return Table("Summary", "What the predator is predicted to take, scenario by scenario",
-                 ["item", "value"], rows,
+    return Table.from_keys("Summary", "What the predator is predicted to take, scenario by "
+                 "scenario", ["item", "value"], rows,
                  notes=["Decision aid only: values must come from local data; any measure "
                         "follows wildlife law, the wildlife authority and licensed "
                         "professionals' judgement."])
@@ -75,7 +96,7 @@ def _summary(result: StudyResult, date: str) -> Table:
 def _scenario(s: ScenarioResult, name: str) -> Table:
     n = s.grid.n
     header = ["level", "reserves_mj", "reserves_fraction", "fitness_healthy",
-              "fitness_injured", "attacks_healthy (best first)", "attacks_injured (best first)",
+              "fitness_injured", "attacks_healthy", "attacks_injured",
               "marginal_hunting_ability_healthy"]
     rows = []
     marginal = s.solution.marginal_by_level
@@ -86,11 +107,13 @@ def _scenario(s: ScenarioResult, name: str) -> Table:
     what = ("probability of reaching breeding condition" if s.currency == "breeding"
             else "probability of ending the season alive and in condition (day 0)")
     elasticity = ("— (undefined where fitness is 0)" if s.elasticity is None
-                  else f"{s.elasticity:.3f}")
-    notes = [f"Fitness = {what}. Fitness at start: {s.fitness_at_start:.4f}.",
-             f"Marginal value of hunting ability at start: {s.marginal_hunting_ability:+.4f} "
+                  else number(s.elasticity, 3, floor=0.001))
+    notes = [f"Fitness = {what}. Fitness at start: {probability(s.fitness_at_start, 4)}.",
+             "Value of hunting ability at start: "
+             f"{number(s.marginal_hunting_ability, 3, floor=0.0001)} per unit of ability "
              f"(elasticity {elasticity})."]
-    return Table(name, f"Scenario {s.name}: decisions and fitness by reserve level", header,
+    return Table.from_keys(name, f"Scenario {s.name}: decisions and fitness by reserve level",
+                           header,
                  rows, {1: "0.00", 2: "0%", 3: "0.0000", 4: "0.0000", 7: "0.0000"}, notes)
 
 
@@ -114,7 +137,8 @@ def _kills(result: StudyResult) -> Table:
                 z.expected_kills[p.name] if z else None,
                 z.expected_kills_population[p.name] if z else None,
             ])
-    return Table("Kills", "Long-run kills of each prey type, places kept filled (every death "
+    return Table.from_keys("Kills", "Long-run kills of each prey type, places kept filled "
+                 "(every death "
                  "replaced at once), or over the season", header,
                  rows, {3: "0.0000", 4: "0.00", 5: "0.0", 6: "0.0", 7: "0%", 8: "0%", 9: "0.00",
                         10: "0.0"})
@@ -127,9 +151,10 @@ def _cohort(result: StudyResult) -> Table:
         c = s.cohort
         for p in s.prey:
             rows.append([s.name, p.name, p.group, c.animals, c.horizon_days, c.kills[p.name]])
-    return Table("Cohort", "Kills by the animals released, within the planning horizon (no "
+    return Table.from_keys("Cohort", "Kills by the animals released, within the planning "
+                 "horizon (no "
                  "replacement)", header, rows, {5: "0.0"},
-                 notes=["The numbers to plan with: released_animals animals released on day 0, "
+                 notes=["The numbers to plan with: the animals released on day 0, "
                         "none replaced. The Kills sheet's yearly rates instead keep every place "
                         "filled (each death replaced at once)."])
 
@@ -146,18 +171,19 @@ def _grid_check(result: StudyResult) -> Table:
         if g.problem:
             rows.append([s.name, levels, "not made", g.problem, None])
             continue
-        rows.append([s.name, levels, "fitness_at_start", "", g.fitness_relative_change])
-        for quantity, values in (("kills", g.kills_relative_change),
-                                 ("kills_by_group", g.kills_by_group_relative_change),
-                                 ("cohort_kills", g.cohort_kills_relative_change),
-                                 ("cohort_kills_by_group",
+        rows.append([s.name, levels, "fitness at start", "", g.fitness_relative_change])
+        for quantity, values in (("long-run kills of a prey", g.kills_relative_change),
+                                 ("long-run kills of a group", g.kills_by_group_relative_change),
+                                 ("released animals' kills of a prey",
+                                  g.cohort_kills_relative_change),
+                                 ("released animals' kills of a group",
                                   g.cohort_kills_by_group_relative_change)):
             rows += [[s.name, levels, quantity, k, v] for k, v in values.items()]
         if g.warning:
             notes.append(f"{s.name}: {g.warning}")
     notes.append("Relative change = (value at the check's levels - value at the study's) / "
                  "value at the study's; blank where the study's value is 0.")
-    return Table("Grid check", "Does the answer depend on the number of energy levels? "
+    return Table.from_keys("Grid check", "Does the answer depend on the number of energy levels? "
                  "(the same scenario on a second grid)", header, rows, {4: "0.0%"}, notes)
 
 
@@ -196,7 +222,7 @@ def _predators(result: StudyResult) -> Table:
             (c.median_survival_days if c.median_survival_days is not None
              else f"over {c.horizon_days} days") if c else None,
         ])
-    return Table("Predators", "What happens to the predators themselves", header, rows,
+    return Table.from_keys("Predators", "What happens to the predators themselves", header, rows,
                  {2: "0.0%", 3: "0%", 4: "0.0", 5: "0.00000", 6: "0", 7: "0.00", 8: "0.000",
                   9: "0.000", 10: "0.000", 11: "0.000", 12: "0.000", 13: "0.000", 14: "0.000",
                   15: "0.0", 16: "0.0"}, notes)
@@ -214,11 +240,12 @@ def _comparison(result: StudyResult) -> Table:
     formats = {}
     for i, c in enumerate(table.columns):
         formats[i] = {"probability": "0.000", "fraction": "0%", "count": "0.0"}.get(c.kind, "")
-    return Table("Comparison", "Scenarios compared; lower rows give the change against the "
+    return Table.from_keys("Comparison", "Scenarios compared; lower rows give the change "
+                 "against the "
                  "baseline", header, rows + ([[]] if delta_rows else []) + delta_rows,
                  {k: v for k, v in formats.items() if v},
-                 notes=["*_takes_below_fraction_*: reserve fraction below which the prey is "
-                        "taken (blank: never)."])
+                 notes=["“takes it below”: the reserves, as a share of capacity, below which "
+                        "the prey is taken (blank: never)."])
 
 
 def _classic(result: StudyResult) -> Table:
@@ -230,7 +257,7 @@ def _classic(result: StudyResult) -> Table:
         c = s.classic
         if c is None:
             continue
-        notes.append(f"{s.name}: rate {c.rate_mj_per_day:.3g} MJ/day. {c.statement}")
+        notes.append(f"{s.name}: rate {number(c.rate_mj_per_day)} MJ/day. {c.statement}")
         order = sorted(range(len(c.names)), key=lambda i: int(c.rank[i]))
         for i in order:
             name = c.names[i]
@@ -241,44 +268,61 @@ def _classic(result: StudyResult) -> Table:
                          ("yes" if name in c.risk_adjusted_diet else "no")
                          if c.risk_adjusted_diet is not None else "no diet pays",
                          (thr if thr != float("inf") else "never") if thr is not None else None])
-    return Table("Classic", "Classic prey model (well-fed forager): Charnov ranking and "
+    return Table.from_keys("Classic", "Classic prey model (well-fed forager): Charnov ranking and "
                  "Gilliam's risk-adjusted diet", header, rows, {3: "0.00", 6: "0.000"}, notes)
 
 
-def _glossary() -> Table:
+def glossary_table(tables: list[Table]) -> Table:
+    """The Glossary sheet: trade terms, inputs by words and key, and every column header
+    of ``tables`` with its key."""
     from riskdiet.analysis.glossary import TERMS, field_glossary
 
     rows = [[term, meaning, ""] for term, meaning in TERMS]
-    rows += [[words, meaning, key] for words, key, meaning in field_glossary()]
-    return Table("Glossary", "Terms used in these results, and the inputs by name", ["term",
-                 "meaning", "key in study files and JSON"], rows,
-                 notes=["Study workbooks and JSON files name inputs by their keys; the "
-                        "results name them in words."])
+    rows += [[words_, meaning, key] for words_, key, meaning in field_glossary()]
+    seen: set[tuple[str, str]] = set()
+    own = Table.from_keys("Glossary", "", ["term", "meaning", "key"], [])
+    for table in [*tables, own]:
+        for header, key in zip(table.header, table.column_keys, strict=True):
+            if header != key and (header, key) not in seen:
+                seen.add((header, key))
+                rows.append([header, f"Column of the {table.name} sheet.", key])
+    return Table.from_keys("Glossary", "Terms used in these results, the inputs and the "
+                           "column headers by name", own.keys, rows,
+                           notes=["Study workbooks, JSON files and the CSV tables name inputs "
+                                  "and columns by their keys; this workbook names them in "
+                                  "words."])
 
 
 def _provenance(result: StudyResult, date: str) -> Table:
-    rows: list[list] = [["riskdiet_version", "", "", result.riskdiet_version],
-                        ["input_file", "", "", result.study.source],
-                        ["input_sha256", "", "", result.study.source_sha256],
-                        ["date", "", "", date]]
+    rows: list[list] = [["riskdiet version", "", "", result.riskdiet_version, ""],
+                        ["input file", "", "", result.study.source, ""],
+                        ["input SHA-256", "", "", result.study.source_sha256, ""],
+                        ["date", "", "", date, ""]]
     for s in result.scenarios:
         rows.append([s.name, "", "solver", f"{s.linear_solver}; {s.iterations} round(s); "
-                     f"converged {s.converged}; Bellman residual {s.residual:.2e}"])
+                     f"converged {'yes' if s.converged else 'no'}; Bellman residual "
+                     f"{technical(s.residual)}", ""])
         for name, spec in field_specs(Predator).items():
             value = getattr(s.predator, name)
             if name == "daily_cost_mj" and s.predator.daily_cost_is_estimated:
-                value = f"{s.predator.effective_daily_cost_mj} (estimated, Kleiber 1961)"
-            rows.append([s.name, "predator", f"{name} [{spec.unit}]", value])
+                value = (f"{number(s.predator.effective_daily_cost_mj, 4)} (estimated, "
+                         "Kleiber 1961)")
+            rows.append([s.name, "predator", _input_words(name, spec), value, name])
         for p in s.prey:
             for name, spec in field_specs(Prey).items():
                 value = getattr(p, name)
                 if name == "skill_dependent":
                     value = p.is_skill_dependent
                 if name == "encounters_per_day" and value is None:
-                    value = f"{p.encounters(s.predator)} (from density)"
-                rows.append([s.name, p.name, f"{name} [{spec.unit}]", value])
-    return Table("Provenance", "Where these numbers come from: every input value as used",
-                 ["scenario", "record", "field [unit]", "value"], rows)
+                    value = f"{number(p.encounters(s.predator), 4)} (from density)"
+                rows.append([s.name, p.name, _input_words(name, spec), value, name])
+    return Table.from_keys("Provenance", "Where these numbers come from: every input value "
+                           "as used", ["scenario", "record", "input", "value", "key"], rows)
+
+
+def _input_words(name: str, spec) -> str:
+    unit = UNIT_WORDS.get(spec.unit, spec.unit)
+    return f"{words(name)} [{unit}]"
 
 
 def scenario_sheet_names(scenario_names: list[str]) -> list[str]:
@@ -308,8 +352,9 @@ def results_tables(result: StudyResult, date: str | None = None) -> list[Table]:
     tables += [_classic(result)]
     if result.map is not None:
         tables.append(_map(result))
-    tables += [_grid_check(result), _glossary(), _provenance(result, date)]
-    return tables
+    tables += [_grid_check(result)]
+    provenance = _provenance(result, date)
+    return [*tables, glossary_table([*tables, provenance]), provenance]
 
 
 def _map(result: StudyResult) -> Table:
@@ -319,7 +364,9 @@ def _map(result: StudyResult) -> Table:
                if c.startswith(("fitness", "marginal"))}
     formats.update({i: "0.00" for i, c in enumerate(surface.columns())
                     if c.startswith("kills")})
-    return Table("Map", f"Map of scenario {req.scenario}: x = {req.x.target}, y = "
-                 f"{req.y.target}; one row per cell", surface.columns(), surface.rows(),
-                 formats, notes=[f"Largest Bellman residual: {surface.max_residual:.1e}."])
+    return Table.from_keys("Map", f"Map of scenario {req.scenario}: across = {req.x.label}, "
+                           f"up = {req.y.label}; one row per cell", surface.columns(),
+                           surface.rows(), formats,
+                           notes=["Largest Bellman residual: "
+                                  f"{technical(surface.max_residual)}."])
 

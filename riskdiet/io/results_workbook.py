@@ -7,11 +7,13 @@ from pathlib import Path
 
 from riskdiet.analysis.results import StudyResult
 from riskdiet.io.atomic import OutputSet, write_atomic
-from riskdiet.io.results_tables import Table, results_tables, table_names
+from riskdiet.io.results_tables import Table, glossary_table, results_tables, table_names
 from riskdiet.model import Study
 
 
 def _write_sheet(ws, table: Table) -> None:
+    import textwrap
+
     from openpyxl.styles import Alignment, Font
     from openpyxl.utils import get_column_letter
 
@@ -33,10 +35,18 @@ def _write_sheet(ws, table: Table) -> None:
             if isinstance(cell.value, (int, float)) and not isinstance(cell.value, bool):
                 cell.number_format = fmt
     ws.freeze_panes = ws.cell(row=header_row + 1, column=1)
+    header_lines = 1
     for i, name in enumerate(table.header, start=1):
-        longest = max([len(str(name))] + [len(str(r[i - 1])) for r in table.rows[:200]
-                                          if len(r) >= i and r[i - 1] is not None])
-        ws.column_dimensions[get_column_letter(i)].width = min(max(10, longest + 2), WIDEST)
+        # headers are words with units: they wrap over up to HEADER_LINES lines, so a
+        # column is as wide as its values (and the header's longest word) need
+        head = str(name)
+        word = max((len(w) for w in head.split()), default=0)
+        longest = max([word, -(-len(head) // HEADER_LINES)]
+                      + [len(_shown(r[i - 1])) for r in table.rows[:200]
+                         if len(r) >= i and r[i - 1] is not None])
+        width = min(max(10, longest + 2), WIDEST)
+        ws.column_dimensions[get_column_letter(i)].width = width
+        header_lines = max(header_lines, len(textwrap.wrap(head, max(width - 2, 1))))
         if longest + 2 > WIDEST:  # long text (findings, notes) wraps inside its column
             for r in range(header_row + 1, ws.max_row + 1):
                 cell = ws.cell(row=r, column=i)
@@ -47,11 +57,23 @@ def _write_sheet(ws, table: Table) -> None:
                     height = LINE_POINTS * lines
                     current = ws.row_dimensions[r].height or 0
                     ws.row_dimensions[r].height = max(current, height)
+    if header_lines > 1:
+        ws.row_dimensions[header_row].height = LINE_POINTS * header_lines
     _print_setup(ws, header_row, len(table.header))
 
 
 WIDEST = 60
 """Widest column [characters]; longer text wraps."""
+HEADER_LINES = 3
+"""Lines a header may wrap over before its column is widened."""
+
+
+def _shown(value) -> str:
+    """A cell's value roughly as a spreadsheet shows it (numbers with their format's few
+    decimals, not every binary digit)."""
+    if isinstance(value, float):
+        return f"{value:,.4g}"
+    return str(value)
 LINE_POINTS = 15
 """Height of one line of wrapped text [pt]."""
 
@@ -130,6 +152,9 @@ def write_results_workbook(result: StudyResult, path: str | Path, force: bool = 
     from openpyxl import Workbook
 
     tables = results_tables(result, date) + list(extra_tables)
+    if extra_tables:  # the Glossary names the extra sheets' headers too
+        tables = [glossary_table([t for t in tables if t.name != "Glossary"])
+                  if t.name == "Glossary" else t for t in tables]
     source = (Path(result.study.source),) if result.study.source else ()
     day = dt.date.fromisoformat(_date_of(tables))
 
@@ -175,6 +200,9 @@ def write_results_csv(result: StudyResult, folder: str | Path, force: bool = Fal
                       date: str | None = None, outputs: OutputSet | None = None) -> list[Path]:
     """Write the same tables as CSV files (UTF-8, one header row) into a folder.
 
+    The CSV header row holds each column's key (as in JSON), for programs; the
+    workbook shows the same columns' words.
+
     All files are written together or not at all (see :class:`OutputSet`).
     """
     tables = results_tables(result, date)
@@ -190,7 +218,7 @@ def write_results_csv(result: StudyResult, folder: str | Path, force: bool = Fal
             def write(tmp: Path, table: Table = table) -> None:
                 with open(tmp, "w", newline="", encoding="utf-8") as fh:
                     out = csv.writer(fh)
-                    out.writerow(table.header)
+                    out.writerow(table.column_keys)
                     for row in table.rows:
                         out.writerow(["" if v is None else v for v in row])
             outputs.stage(p, write)

@@ -30,12 +30,13 @@ from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import BaseDocTemplate, Frame, PageTemplate, Spacer
 
 from riskdiet.analysis.results import StudyResult
+from riskdiet.analysis.wording import percent, percent_change, technical
 from riskdiet.core.solver import DIRECT_LIMIT, MAX_POLICY_ITERATIONS, SOLVE_TOLERANCE
 from riskdiet.errors import Problem, StudyError
 from riskdiet.model import Study
 from riskdiet.report import figures as figs
 from riskdiet.report.figure_style import DPI_BRIEF
-from riskdiet.report.fonts import FontSet, register_fonts
+from riskdiet.report.fonts import FontSet, draw_string, register_fonts
 from riskdiet.report.layout import (
     MARGIN_BOTTOM,
     MARGIN_SIDE,
@@ -49,6 +50,7 @@ from riskdiet.report.layout import (
     make_table,
 )
 from riskdiet.report.map_section import map_section
+from riskdiet.report.metadata import attach_xmp
 from riskdiet.report.sections import MAPS, NUM, REFERENCES, SECTIONS, Builder, _num
 
 __all__ = ["SECTIONS", "BriefPlan", "brief_date", "brief_story", "build_brief", "write_brief"]
@@ -221,17 +223,17 @@ def _appendix(b: Builder, plan: BriefPlan) -> None:
         tj = f"J = {g.top}" if s.currency == "breeding" else f"T = {g.season_days}"
         rows.append([esc(s.name), s.currency, str(g.n), _num(g.step_mj, 4), tj,
                      esc(s.linear_solver), str(s.iterations), "yes" if s.converged else "no",
-                     f"{s.residual:.1e}"])
+                     technical(s.residual)])
     b.tables(rows, [Column(max_share=0.2)] + [NUM] * 4
              + [Column(max_share=0.16)] + [NUM] * 3,
              note="Breeding currency: policy iteration from the default (reserve-maximising) "
                   "attack sets, a state switching only on a strict gain, each policy evaluated "
                   f"exactly by a linear solve (sparse LU up to {DIRECT_LIMIT} unknowns; above, "
                   "BiCGSTAB accepted only when its residual in every state is below "
-                  f"{SOLVE_TOLERANCE:g} of that state's terms), at most "
+                  f"{technical(SOLVE_TOLERANCE)} of that state's terms), at most "
                   f"{MAX_POLICY_ITERATIONS} rounds; the residual is the largest change one "
                   "more Bellman update would make, relative to each state's value (a solve "
-                  "above 1e-9 is refused). Season currency: backward induction over "
+                  f"above {technical(1e-9)} is refused). Season currency: backward induction over "
                   "the days of the season (exact; rounds = days). Reserves "
                   "x<sub>j</sub> = j·R/n; level 0 is death by starvation.")
     b.sub("Grid check")
@@ -246,15 +248,15 @@ def _appendix(b: Builder, plan: BriefPlan) -> None:
         verdict = (esc(g.problem) if g.problem else esc(g.warning) if g.warning
                    else "fine enough")
         rows.append([esc(s.name), f"{g.levels_compared[0]} vs {g.levels_compared[1]}",
-                     "—" if fit is None else f"{100 * fit:+.2f} %",
-                     "—" if largest is None else f"{100 * largest:.1f} %", verdict])
+                     "—" if fit is None else percent_change(fit, decimals=2),
+                     "—" if largest is None else percent(largest, 1), verdict])
     b.tables(rows, [Column(max_share=0.2)] + [NUM] * 3 + [Column(max_share=0.45)],
              note="Each scenario is solved again on a second grid (about half as many energy "
                   "levels; twice as many below 20) and the relative changes are compared. A "
                   "warning is given when fitness changes by more than 0.01 and 5 %, or when "
                   "the kills of a prey or group making at least 1 % of kills change by more "
                   "than 5 %: the answer then still depends on the grid, and a larger "
-                  "energy_levels should be used.")
+                  "number of energy levels should be used.")
     b.sub("Methods")
     b.bullets([
         "Decisions by reserves and condition: stochastic dynamic programming of a "
@@ -290,6 +292,13 @@ def _appendix(b: Builder, plan: BriefPlan) -> None:
 
     b.tables([["term", "meaning"]] + [[esc(t), esc(m)] for t, m in TERMS],
              [Column(max_share=0.25), Column(max_share=0.75)])
+    from riskdiet.analysis.glossary import field_glossary
+
+    b.para("Inputs are named in words in this brief; study workbooks and JSON files name them "
+           "by these keys:", b.s.small)
+    pairs = dict.fromkeys((w, k) for w, k, _ in field_glossary() if w != k)
+    b.tables([["input", "key"]] + [[esc(w), esc(k)] for w, k in pairs],
+             [Column(max_share=0.5), Column(max_share=0.5, mono=True)])
     b.sub("References")
     for ref in REFERENCES:
         b.para(esc(ref), b.s.small)
@@ -358,7 +367,7 @@ def _page_decorations(plan: BriefPlan):
             title = title[:-2].rstrip() + "…"
             title = title[:-1] if title.endswith("……") else title
         y = page_h - MARGIN_TOP + 10 * mm
-        canvas.drawString(MARGIN_SIDE, y, title)
+        draw_string(canvas, MARGIN_SIDE, y, title, fonts.regular, 8)
         canvas.drawRightString(page_w - MARGIN_SIDE, y, right)
         canvas.setStrokeColor(colors.HexColor("#9a9a9a"))
         canvas.setLineWidth(0.5)
@@ -397,6 +406,7 @@ def _numbered_canvas(plan: BriefPlan) -> type[Canvas]:
                                      f"page {self._pageNumber} of {total}")
                 Canvas.showPage(self)
             self.showOutline()
+            attach_xmp(self, LANGUAGE)
             Canvas.save(self)
 
     return NumberedCanvas

@@ -21,6 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult
+from riskdiet.analysis.wording import amount, percent, value
 from riskdiet.report.figure_style import (
     CONDITION_LINES,
     DPI_EXPORT,
@@ -36,6 +37,7 @@ from riskdiet.report.figure_style import (
     slug,
     svg_bytes,
 )
+from riskdiet.report.fonts import FALLBACK_FAMILIES, needs_fallback
 from riskdiet.report.map_figures import map_figures
 
 
@@ -120,7 +122,7 @@ def decision_figure(result: ScenarioResult) -> object:
         for ax in axes:
             ax.axvline(start, color="#000000", linestyle=(0, (4, 2)), linewidth=0.9)
         extra.append(Line2D([], [], color="#000000", linestyle=(0, (4, 2)), linewidth=0.9,
-                            label=f"start reserves ({100 * start:.0f} %)"))
+                            label=f"reserves at release ({percent(start)})"))
         day = ", policy of day 0" if result.currency == "season" else ""
         bands.set_title(f"Scenario “{short_label(result.name, 60)}”{day}: prey worth attacking "
                         "when met", loc="left")
@@ -132,12 +134,12 @@ def decision_figure(result: ScenarioResult) -> object:
                        linewidth=(1.4, 1.6)[k], label=cond,
                        gid=f"fitness:{cond}")
         curve.set_ylim(-0.02, 1.02)
-        curve.set_ylabel("probability")
+        curve.set_ylabel("chance")
         curve.set_title(f"{_what(result).capitalize()}, from each level of reserves", loc="left")
         curve.set_xlim(0, 1)
         curve.xaxis.set_major_formatter(_percent_formatter())
-        curve.set_xlabel(f"reserves (fraction of capacity; 100 % = {capacity:g} MJ)")
-        curve.legend(loc="upper left", title="condition", frameon=False)
+        curve.set_xlabel(f"reserves (share of capacity; 100 % = {value(capacity)} MJ)")
+        curve.legend(loc="upper left", title="the animal is", frameon=False)
         curve.grid(axis="y", color="#dddddd", linewidth=0.5)
         top = bands.secondary_xaxis("top", functions=(lambda f: f * capacity,
                                                       lambda mj: mj / capacity))
@@ -155,7 +157,14 @@ def _freeze(fig):
 
     Constrained layout refines positions on each draw; a frozen layout gives the
     same bytes however often, and at whatever resolution, a figure is saved.
+    Texts with characters DejaVu Sans lacks (a prey name in another script) get
+    matplotlib's font fallback to the same fonts as the PDF text.
     """
+    from matplotlib.text import Text
+
+    for text in fig.findobj(Text):
+        if needs_fallback(text.get_text()):
+            text.set_fontfamily(["DejaVu Sans", *FALLBACK_FAMILIES])
     fig.draw_without_rendering()
     fig.set_layout_engine(None)
     return fig
@@ -247,7 +256,7 @@ def kills_figure(result: StudyResult, currency: str = "breeding") -> object | No
 
 
 def _count(v: float) -> str:
-    return f"{v:.1f}" if v < 100 else f"{v:.0f}"
+    return amount(v)
 
 
 def season_figure(result: StudyResult) -> object | None:
@@ -289,6 +298,8 @@ def season_figure(result: StudyResult) -> object | None:
         left.set_xlabel("day of the season")
         right.set_xlabel("day of the season")
         left.set_title("Chance of being alive", loc="left")
+        left.set_ylabel("chance")
+        right.set_ylabel("share of capacity")
         right.set_title("Mean reserves of the living", loc="left")
         for ax in (left, right):
             ax.grid(color="#dddddd", linewidth=0.5)

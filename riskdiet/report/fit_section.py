@@ -11,6 +11,8 @@ from __future__ import annotations
 import numpy as np
 
 from riskdiet.analysis.fit import FitResult
+from riskdiet.analysis.glossary import input_words
+from riskdiet.analysis.wording import value as number_value
 from riskdiet.model import Study
 from riskdiet.report.figure_style import WIDTH_IN, BriefFigure, _bar_style, _style, short_label
 from riskdiet.report.fit_text import statistics_words
@@ -57,12 +59,13 @@ def fit_page_one(study: Study, fit: FitResult) -> str:
         if value is None or not f.identified:
             continue
         if abs(value - f.value) <= RELATIVE_MATCH * max(abs(f.value), 1e-12):
-            fitted.append(f.name)
+            fitted.append(input_words(f.name))
         elif f.interval.contains(value):
-            inside.append(f"{f.name} ({value:g})")
+            inside.append(f"{input_words(f.name)} ({number_value(value)})")
         else:
-            outside.append(f"{f.name} ({value:g}; fitted {f.value:.3g})")
-    lost = [f.name for f in fit.fitted if not f.identified]
+            outside.append(f"{input_words(f.name)} ({number_value(value)}; fitted "
+                           f"{number_value(f.value, 3)})")
+    lost = [input_words(f.name) for f in fit.fitted if not f.identified]
     parts = []
     if fitted and not inside and not outside:
         parts.append("Calibration: the predictions rest on values fitted to the field records ("
@@ -111,11 +114,14 @@ def fit_section(b: Builder, fit: FitResult, figure_key: str | None) -> None:
         b.figure(figure_key)
     rows = [["input", "fitted value", "95 % interval", "search range", "note"]]
     for f in fit.fitted:
-        pieces = " ∪ ".join(f"{p.low:.3g}–{p.high:.3g}" for p in f.interval.pieces)
+        pieces = " ∪ ".join(f"{number_value(p.low, 3)}–{number_value(p.high, 3)}"
+                            for p in f.interval.pieces)
         note = ("not identified: flat likelihood" if not f.identified else
                 "reaches the search range's end" if f.interval.at_bound else "")
-        rows.append([esc(f.name), "—" if not f.identified else f"{f.value:.3g}", pieces,
-                     f"{f.search[0]:.3g}–{f.search[1]:.3g}", esc(note)])
+        rows.append([esc(input_words(f.name)),
+                     "—" if not f.identified else number_value(f.value, 3), pieces,
+                     f"{number_value(f.search[0], 3)}–{number_value(f.search[1], 3)}",
+                     esc(note)])
     b.tables(rows, [Column(max_share=0.3), NUM, NUM, NUM, Column(max_share=0.3)],
              note="Search ranges come from the study's Uncertainty sheet where it gives one, "
                   "else the defaults of MODEL.md section 10.")

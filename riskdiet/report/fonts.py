@@ -85,16 +85,18 @@ def register_fonts() -> FontSet:
 
 
 def undrawable(text: str) -> list[str]:
-    """Characters of ``text`` the brief's regular font has no glyph for (shown as boxes).
+    """Characters of ``text`` that no font of the brief can draw (shown as boxes).
 
-    Reads the character map of DejaVu Sans (the brief's text font); with the
-    fallback fonts, characters outside Latin-1 count as undrawable.
+    A character counts as drawable when the text font (DejaVu Sans) or one of
+    the fallback fonts (:func:`fallback_font`) has a glyph for it; with the
+    standard PDF fonts instead (no DejaVu files), characters outside Latin-1
+    count as undrawable.
     """
     cmap = _character_map()
     chars = dict.fromkeys(c for c in text if not c.isspace())
     if cmap is None:
         return [c for c in chars if ord(c) > 0xFF]
-    return [c for c in chars if ord(c) not in cmap]
+    return [c for c in chars if ord(c) not in cmap and fallback_font(c) is None]
 
 
 _CMAP: list = []
@@ -110,3 +112,108 @@ def _character_map() -> set[int] | None:
 
             _CMAP.append(set(TTFontFile(str(path)).charToGlyph))
     return _CMAP[0]
+
+
+FALLBACK_FILES = ("STIXGeneral.ttf", "DejaVuSerif.ttf")
+"""Fonts bundled with matplotlib tried, in this order, for a character DejaVu Sans
+lacks (STIX covers many letter-like symbols, some kana and mathematical letters)."""
+
+SYSTEM_FONT_FOLDERS = ("/usr/share/fonts", "/usr/local/share/fonts",
+                       "/Library/Fonts", "C:/Windows/Fonts")
+"""Folders searched, in sorted file order, for a TrueType font covering a character
+that neither DejaVu Sans nor the bundled fallbacks can draw (e.g. CJK)."""
+
+FALLBACK_FAMILIES = ("STIXGeneral", "DejaVu Serif")
+"""The same bundled fallbacks by their family names, for matplotlib's font fallback."""
+
+
+def needs_fallback(text: str) -> bool:
+    """Whether ``text`` holds a character the text font (DejaVu Sans) has no glyph for."""
+    cmap = _character_map()
+    return (not text.isascii() and cmap is not None
+            and any(ord(c) not in cmap and not c.isspace() for c in text))
+
+
+_FALLBACKS: list[tuple[str, str, set[int]]] = []
+_SYSTEM: list[tuple[str, str, set[int]]] = []
+_SYSTEM_SCANNED: list[bool] = []
+
+
+def _load_fallbacks(paths: list[Path], into: list, prefix: str) -> None:
+    from reportlab.pdfbase.ttfonts import TTFError, TTFontFile
+
+    for path in paths:
+        try:
+            cmap = set(TTFontFile(str(path)).charToGlyph)
+        except (TTFError, OSError, KeyError, ValueError, IndexError, AssertionError):
+            continue  # a font reportlab cannot read (CFF outlines, damaged file) is skipped
+        into.append((f"{prefix}{len(into) + 1}", str(path), cmap))
+
+
+def fallback_font(char: str) -> str | None:
+    """The name of a registered fallback font that can draw ``char``, or None.
+
+    Tries the fonts bundled with matplotlib first (the same on every machine),
+    then TrueType fonts of the system. The font is registered with reportlab on
+    first use and embedded (subset) like the text font.
+    """
+    code = ord(char)
+    if not _FALLBACKS:
+        _load_fallbacks([font_folder() / f for f in FALLBACK_FILES
+                         if (font_folder() / f).is_file()], _FALLBACKS, "RiskdietFallback")
+    found = next((f for f in _FALLBACKS if code in f[2]), None)
+    if found is None:
+        if not _SYSTEM_SCANNED:
+            _SYSTEM_SCANNED.append(True)
+            files = sorted(p for folder in SYSTEM_FONT_FOLDERS if Path(folder).is_dir()
+                           for p in Path(folder).rglob("*") if p.suffix.lower() == ".ttf")
+            _load_fallbacks(files, _SYSTEM, "RiskdietSystemFallback")
+        found = next((f for f in _SYSTEM if code in f[2]), None)
+    if found is None:
+        return None
+    from reportlab.pdfbase import pdfmetrics
+    from reportlab.pdfbase.ttfonts import TTFont
+
+    name, path, _ = found
+    if name not in pdfmetrics.getRegisteredFontNames():
+        pdfmetrics.registerFont(TTFont(name, path))
+    return name
+
+
+def runs(text: str) -> list[tuple[str | None, str]]:
+    """Split ``text`` into runs: (None, text the main font draws) and
+    (fallback font name, characters only that font draws)."""
+    cmap = _character_map()
+    if text.isascii() or cmap is None:
+        return [(None, text)]
+    out: list[tuple[str | None, str]] = []
+    for c in text:
+        font = None if ord(c) in cmap or c.isspace() else fallback_font(c)
+        if out and out[-1][0] == font:
+            out[-1] = (font, out[-1][1] + c)
+        else:
+            out.append((font, c))
+    return out
+
+
+def with_fallback(markup: str) -> str:
+    """Paragraph markup with every character the text font lacks wrapped in
+    ``<font name="...">`` of a fallback font that has it (not dropped, not a box).
+
+    ``markup`` is already escaped text (entities and tags are ASCII, so they
+    stay with the main font).
+    """
+    return "".join(text if font is None else f'<font name="{font}">{text}</font>'
+                   for font, text in runs(markup))
+
+
+def draw_string(canvas, x: float, y: float, text: str, font: str, size: float) -> None:
+    """``canvas.drawString`` that draws the characters ``font`` lacks in a fallback font."""
+    from reportlab.pdfbase.pdfmetrics import stringWidth
+
+    for name, part in runs(text):
+        face = name or font
+        canvas.setFont(face, size)
+        canvas.drawString(x, y, part)
+        x += stringWidth(part, face, size)
+    canvas.setFont(font, size)

@@ -22,7 +22,7 @@ from reportlab.lib.units import mm
 from reportlab.pdfbase.pdfmetrics import stringWidth
 from reportlab.platypus import Paragraph, Table, TableStyle
 
-from riskdiet.report.fonts import FontSet
+from riskdiet.report.fonts import FontSet, with_fallback
 
 PAPER = {"a4": A4, "letter": LETTER}
 """Page sizes [pt]: A4 is 210 x 297 mm (ISO 216), letter 8.5 x 11 in (ANSI/ASME Y14.1)."""
@@ -99,8 +99,10 @@ def make_styles(fonts: FontSet) -> Styles:
 
 
 def esc(text: object) -> str:
-    """Text made safe for a reportlab paragraph (``&``, ``<``, ``>`` escaped)."""
-    return html.escape(str(text), quote=False)
+    """Text made safe for a reportlab paragraph (``&``, ``<``, ``>`` escaped), with the
+    characters the text font lacks set in a fallback font that has them
+    (:func:`riskdiet.report.fonts.with_fallback`), so that none is dropped."""
+    return with_fallback(html.escape(str(text), quote=False))
 
 
 _TAG = re.compile(r"<[^>]+>")
@@ -120,7 +122,8 @@ def _widths(text: str, font: str, size: float) -> tuple[float, float]:
     A cell that switches font (``<font name=...>``) is measured in that font.
     """
     switch = _FONT_NAME.search(text)
-    font = switch.group(1) if switch else font
+    if switch and "Fallback" not in switch.group(1):  # a few fallback glyphs: the cell's font
+        font = switch.group(1)
     lines = plain(text).split("\n") or [""]
     widest = max(stringWidth(line, font, size) for line in lines)
     words = [w for line in lines for w in line.split()] or [""]

@@ -7,13 +7,13 @@ Every number printed here is read from the results (:class:`StudyResult`,
 from __future__ import annotations
 
 import io
-import math
 from collections.abc import Callable
 
 from reportlab.platypus import CondPageBreak, Image, KeepTogether, Paragraph, Spacer
 
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult
-from riskdiet.fields import field_specs
+from riskdiet.analysis.wording import count, fixed, number, probability, value
+from riskdiet.fields import UNIT_WORDS, field_specs, words
 from riskdiet.model import Predator, Prey, Study
 from riskdiet.report.figure_style import BriefFigure, png_bytes
 from riskdiet.report.layout import Column, Styles, esc, split_wide
@@ -99,34 +99,19 @@ NUM = Column(right=True, max_share=0.22)
 """A numeric column: right-aligned, its header wraps beyond a fifth of the page."""
 
 
-def _num(value, digits: int = 3) -> str:
-    """A number for a table: None as a dash, infinity as ∞, 3 significant digits."""
-    if value is None:
-        return "—"
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if isinstance(value, int):
-        return f"{value:,}"
-    x = float(value)
-    if math.isnan(x):
-        return "—"
-    if math.isinf(x):
-        return "∞" if x > 0 else "−∞"
-    if abs(x) >= 1000:
-        return f"{x:,.0f}"
-    return f"{x:.{digits}g}"
+def _num(x, digits: int = 3) -> str:
+    """A number for a table (:func:`riskdiet.analysis.wording.number`): a dash for none,
+    ∞ for unbounded, ``digits`` significant figures, ``< 0.001`` below."""
+    return number(x, sig=digits)
 
 
-def _count(value) -> str:
-    """A predicted number of kills: 2 decimals below 1, 1 below 100, whole numbers above."""
-    if value is None:
-        return "—"
-    x = float(value)
-    if x == 0:
-        return "0"
-    if abs(x) < 1:
-        return f"{x:.2g}"
-    return f"{x:.1f}" if abs(x) < 100 else f"{x:,.0f}"
+def _count(x) -> str:
+    """A predicted number of kills: three significant figures, ``< 0.01`` below."""
+    return count(x)
+
+
+def _unit(spec) -> str:
+    return UNIT_WORDS.get(spec.unit, spec.unit)
 
 
 def attack_percent(result: ScenarioResult, prey: str, condition: str) -> str:
@@ -136,8 +121,8 @@ def attack_percent(result: ScenarioResult, prey: str, condition: str) -> str:
         return "—"
     if not runs:
         return "never"
-    return ", ".join(f"{100 * r.low_fraction:.0f} %" if r.low_fraction == r.high_fraction
-                     else f"{100 * r.low_fraction:.0f}–{100 * r.high_fraction:.0f} %"
+    return ", ".join(f"{fixed(100 * r.low_fraction, 0)} %" if r.low_fraction == r.high_fraction
+                     else f"{fixed(100 * r.low_fraction, 0)}–{fixed(100 * r.high_fraction, 0)} %"
                      for r in runs)
 
 
@@ -158,7 +143,7 @@ def grid_summary(result: StudyResult) -> str:
     if flagged:
         return ("Accuracy: the numbers of " + _list(flagged) + " still depend on the number of "
                 "energy levels (see the grid check in the technical appendix); treat them as "
-                "rough until the study is solved with a larger energy_levels.")
+                "rough until the study is solved with a larger number of energy levels.")
     levels = {g.levels_compared for _, g in checks if not g.problem}
     pair = (f" between {next(iter(levels))[0]} and {next(iter(levels))[1]} energy levels"
             if len(levels) == 1 else "")
@@ -373,20 +358,20 @@ class Builder:
                   "sources the user gave. Values that riskdiet derived rather than read are "
                   "marked <i>estimated</i> or <i>derived</i>.")
         self.sub(f"Predator: {p.name}")
-        rows = [["field", "value", "unit", "note"]]
+        rows = [["input", "value", "unit", "note"]]
         for name, spec in field_specs(Predator).items():
-            value = getattr(p, name)
+            given = getattr(p, name)
             note = self.study.notes.get(name, "")
             if name == "daily_cost_mj" and p.daily_cost_is_estimated:
-                shown = f"{p.effective_daily_cost_mj:.3g} (estimated)"
+                shown = f"{value(p.effective_daily_cost_mj, 3)} (estimated)"
                 note = ("Estimated from body mass: activity multiplier × Kleiber's "
                         "70·M^0.75 kcal/day (Kleiber 1961). " + note).strip()
-            elif isinstance(value, str):
-                shown = value
+            elif isinstance(given, str):
+                shown = given
             else:
-                shown = _num(value)
-            rows.append([f"{esc(name)}<br/><font size=\"6.5\" color=\"#444444\">"
-                         f"{esc(spec.description)}</font>", esc(shown), esc(spec.unit),
+                shown = value(given)
+            rows.append([f"{esc(words(name))}<br/><font size=\"6.5\" color=\"#444444\">"
+                         f"{esc(spec.description)}</font>", esc(shown), esc(_unit(spec)),
                          esc(note)])
         self.tables(rows, [Column(max_share=0.4), Column(max_share=0.16), Column(max_share=0.13),
                            Column(max_share=0.36)])
@@ -394,11 +379,11 @@ class Builder:
         self.sub("Prey types")
         prey = self.study.prey
         specs = field_specs(Prey)
-        rows = [["field [unit]"] + [f"<b>{esc(y.name)}</b>" for y in prey]]
+        rows = [["input [unit]"] + [f"<b>{esc(y.name)}</b>" for y in prey]]
         for name, spec in specs.items():
             if name in ("name", "note"):
                 continue
-            line = [f"{esc(name)} [{esc(spec.unit)}]"]
+            line = [f"{esc(words(name))} [{esc(_unit(spec))}]"]
             for y in prey:
                 line.append(esc(self.prey_value(y, name)))
             rows.append(line)
@@ -430,17 +415,17 @@ class Builder:
             self.para("riskdiet found no unusual values in the inputs.")
 
     def prey_value(self, y: Prey, name: str) -> str:
-        value = getattr(y, name)
-        if name == "encounters_per_day" and value is None:
+        given = getattr(y, name)
+        if name == "encounters_per_day" and given is None:
             try:
-                return f"{y.encounters(self.study.predator):.3g} (derived)"
+                return f"{value(y.encounters(self.study.predator), 3)} (derived)"
             except ValueError:
                 return "—"
-        if name == "skill_dependent" and value is None:
+        if name == "skill_dependent" and given is None:
             return ("yes" if y.is_skill_dependent else "no") + " (default)"
-        if isinstance(value, str):
-            return value
-        return _num(value)
+        if isinstance(given, str):
+            return given
+        return value(given)
 
     # --- 4. classic --------------------------------------------------------------------------
     def classic(self) -> None:
@@ -532,14 +517,14 @@ class Builder:
         capacities = sorted({s.predator.reserve_capacity_mj for s in scenarios})
         one = len(capacities) == 1
         rows = [["prey", *(esc(s.name) if one else
-                           f"{esc(s.name)} (R = {s.predator.reserve_capacity_mj:g} MJ)"
+                           f"{esc(s.name)} (R = {value(s.predator.reserve_capacity_mj)} MJ)"
                            for s in scenarios)]]
         for cond in CONDITIONS:
             rows.append([f"<b>{cond}</b>"] + [""] * len(scenarios))
             for n in self.prey_union(list(scenarios)):
                 rows.append([esc(n)] + [esc(attack_percent(s, n, cond)) for s in scenarios])
         note = ("Rows are grouped by the condition of the predator. Reserves as a share of "
-                f"the capacity R{f' = {capacities[0]:g} MJ' if one else ''}; several ranges "
+                f"the capacity R{f' = {value(capacities[0])} MJ' if one else ''}; several ranges "
                 "mean the prey is dropped and taken again as reserves rise; “never”: not "
                 "attacked at any level.")
         keys = self._decision_keys()
@@ -604,9 +589,9 @@ class Builder:
                             + [_count(s.season_kills.expected_kills_population.get(n))
                                for s in season])
             rows.append(["survives the season [probability]"]
-                        + [_num(s.season_kills.survival_to_end) for s in season])
+                        + [probability(s.season_kills.survival_to_end, 3) for s in season])
             rows.append(["ends the season in condition [probability]"]
-                        + [_num(s.season_kills.chance_above_threshold) for s in season])
+                        + [probability(s.season_kills.chance_above_threshold, 3) for s in season])
             self.tables(rows, [Column(max_share=0.35)] + [NUM] * len(season))
             for key in self.figure_order:
                 if key.endswith("-kills-season") or key.endswith("-season-outlook"):
@@ -651,17 +636,17 @@ class Builder:
                                               for k in ks]),
             ("mean reserves [share of capacity]",
              [format_value(k.mean_reserves_fraction, "fraction") for k in ks]),
-            ("chance of surviving a day", [f"{k.daily_survival:.4f}" for k in ks]),
+            ("chance of surviving a day", [probability(k.daily_survival, 4) for k in ks]),
             ("expected lifetime of a newcomer [days]",
              [_num(k.expected_lifetime_days) for k in ks]),
             ("expected breeding events of a newcomer",
              [_num(k.expected_breeding_events) for k in ks]),
-            ("chance a newcomer breeds at least once", [_num(k.first_breeding_probability)
+            ("chance a newcomer breeds at least once", [probability(k.first_breeding_probability)
                                                         for k in ks]),
         ]
         for cause in ("starvation", "attack", "other"):
             lines.append((f"dies of {cause} before first breeding",
-                          [_num(k.death_before_breeding.get(cause, 0.0)) for k in ks]))
+                          [probability(k.death_before_breeding.get(cause, 0.0), 3) for k in ks]))
         rows += [[esc(label), *values] for label, values in lines]
         never = [s.name for s in scenarios if s.kills.lifetime_note]
         self.tables(rows, [Column(max_share=0.35)] + [NUM] * len(scenarios),

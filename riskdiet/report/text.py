@@ -3,12 +3,21 @@
 from __future__ import annotations
 
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult
-from riskdiet.analysis.wording import amount
+from riskdiet.analysis.wording import (
+    amount,
+    change,
+    number,
+    percent_change,
+    probability,
+    technical,
+    value,
+)
+from riskdiet.analysis.wording import percent as _percent
 
 
 def percent(fraction: float) -> str:
     """A reserve fraction as a whole percentage, e.g. ``35 %``."""
-    return f"{100 * fraction:.0f} %"
+    return _percent(fraction)
 
 
 def ranges_text(result: ScenarioResult, prey: str, condition: str) -> str:
@@ -17,7 +26,7 @@ def ranges_text(result: ScenarioResult, prey: str, condition: str) -> str:
     if not runs:
         return "never"
     parts = [f"{percent(r.low_fraction)[:-2]}–{percent(r.high_fraction)} "
-             f"({r.low_mj:.3g}–{r.high_mj:.3g} MJ)" for r in runs]
+             f"({value(r.low_mj, 3)}–{value(r.high_mj, 3)} MJ)" for r in runs]
     return ", ".join(parts)
 
 
@@ -33,20 +42,21 @@ def scenario_summary(result: ScenarioResult) -> str:
     lines += cohort_lines(result)
     lines += long_run_lines(result)
     lines.append(f"  Chance of {what}, from {percent(p.start_reserves)} reserves, healthy: "
-                 f"{result.fitness_at_start:.3f}")
+                 f"{probability(result.fitness_at_start, 3)}")
     width = max(len(n) for n in result.prey_names)
     for cond in CONDITIONS:
         article = "an" if cond[0] in "aeiou" else "a"
         lines.append(f"  Prey attacked by {article} {cond} animal, by reserves (fraction of "
-                     f"{p.reserve_capacity_mj:g} MJ):")
+                     f"{value(p.reserve_capacity_mj)} MJ):")
         for name in result.prey_names:
             lines.append(f"    {name:<{width}}  {ranges_text(result, name, cond)}")
     el = result.elasticity
-    lines.append(f"  Marginal value of hunting ability: {result.marginal_hunting_ability:+.4f} "
-                 "per unit" + (f" (elasticity {el:+.3f})" if el is not None
+    lines.append(f"  Value of hunting ability: each 0.1 more changes that chance by "
+                 f"{change(0.1 * result.marginal_hunting_ability, 'probability')}"
+                 + (f" (elasticity {number(el, 2, floor=0.01)})" if el is not None
                                else " (elasticity — : undefined where the chance is 0)"))
     lines.append(f"  Solver: {result.linear_solver}, {result.iterations} round(s), "
-                 f"Bellman residual {result.residual:.1e} (relative to the values)")
+                 f"Bellman residual {technical(result.residual)} (relative to the values)")
     lines.append("  " + grid_check_line(result))
     return "\n".join(lines)
 
@@ -67,7 +77,7 @@ def cohort_lines(result: ScenarioResult) -> list[str]:
     lines.append("    expected kills by prey:")
     lines += ["  " + k for k in kills]
     lines.append(f"    by group: {groups}")
-    lines.append(f"    alive at the end: {100 * c.alive_at_horizon:.0f} % of animals "
+    lines.append(f"    alive at the end: {_percent(c.alive_at_horizon)} of animals "
                  f"({amount(c.survivors)} expected survivors); median survival {median}")
     if c.breeding_events is not None:
         lines.append(f"    expected breeding events: {amount(c.breeding_events)}")
@@ -97,7 +107,7 @@ def grid_check_line(result: ScenarioResult) -> str:
     if g.warning:
         return f"Grid check: WARNING. {g.warning}"
     change = g.fitness_relative_change
-    text = "—" if change is None else f"{100 * change:+.2f} %"
+    text = "—" if change is None else percent_change(change, decimals=2)
     return (f"Grid check: at {g.levels_compared[0]} instead of {g.levels_compared[1]} energy "
             f"levels fitness changes by {text} and no kill estimate by more than 5 %: "
             "fine enough")
@@ -117,31 +127,28 @@ def solve_summary(result: StudyResult) -> str:
 
 
 def format_value(value, kind: str) -> str:
-    """One comparison cell for people: probabilities to 3 places, fractions as %."""
+    """One comparison cell for people (the number policy of :mod:`riskdiet.analysis.wording`):
+    probabilities to 3 places, fractions as %, counts to 3 significant figures."""
     if value is None:
         return "—"
     if kind == "text":
         return str(value)
     if kind == "fraction":
-        return f"{100 * value:.0f} %"
+        return _percent(value)
     if kind == "probability":
-        return f"{value:.3f}"
-    return f"{value:.3g}" if abs(value) < 100 else f"{value:.0f}"
+        return probability(value, 3)
+    return number(value, floor=0.01)
 
 
 def format_delta(delta, pct, kind: str) -> str:
-    """A signed change against the baseline, e.g. ``+0.120 (+15 %)``."""
+    """A signed change against the baseline, e.g. ``+0.12 (+15 %)``; ``0`` when it
+    rounds to nothing."""
     if delta is None:
         return ""
-    if kind == "fraction":
-        return _signed(f"{100 * delta:+.0f}") + " pts"
-    text = _signed(f"{delta:+.3f}" if kind == "probability" else f"{delta:+.3g}")
-    return text + (f" ({_signed(f'{pct:+.0f}')} %)" if pct is not None else "")
-
-
-def _signed(text: str) -> str:
-    """Drop the sign of a change that rounds to zero (``-0`` reads as a loss)."""
-    return text[1:] if text.lstrip("+-").strip("0.") == "" else text
+    text = change(delta, "count" if kind not in ("fraction", "probability") else kind)
+    if kind == "fraction" or text in ("0", "0 pts") or text.startswith("<") or pct is None:
+        return text
+    return f"{text} ({percent_change(pct / 100)})"
 
 
 def comparison_renderables(table, width: int = 100) -> list:
@@ -201,15 +208,15 @@ def classic_summary(result: StudyResult) -> str:
         order = sorted(range(len(c.names)), key=lambda i: int(c.rank[i]))
         for i in order:
             prof = float(c.profitability_mj_per_day[i])
-            prof_text = "no handling time" if prof == float("inf") else f"{prof:.3g}"
+            prof_text = "no handling time" if prof == float("inf") else number(prof)
             lines.append(f"  {int(c.rank[i]):>4}  {c.names[i]:<24}  {prof_text}")
         lines.append(f"  Rate-maximising diet (Charnov 1976): "
                      f"{', '.join(c.rate_maximizing_diet) or 'none'}; rate "
-                     f"{c.rate_mj_per_day:.3g} MJ/day")
+                     f"{number(c.rate_mj_per_day)} MJ/day")
         for name, thr in c.switching_threshold_per_day.items():
             lines.append(f"    {name} stays out while the better prey are met more than "
                          + ("(never: abundance of better prey alone cannot exclude it)"
-                            if thr == float("inf") else f"{thr:.3g} times a day"))
+                            if thr == float("inf") else f"{number(thr)} times a day"))
         if c.risk_adjusted_diet is None:
             lines.append("  Risk-adjusted diet (Gilliam's rule): none")
         else:

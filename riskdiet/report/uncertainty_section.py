@@ -9,7 +9,9 @@ from __future__ import annotations
 
 from reportlab.platypus import Paragraph
 
+from riskdiet.analysis.glossary import input_words
 from riskdiet.analysis.uncertainty import COHORT_GROUP, FITNESS, UncertaintyResult
+from riskdiet.analysis.wording import percent, probability, value
 from riskdiet.core.stats.probability_words import describe_probability
 from riskdiet.report.figure_style import (
     PALETTE,
@@ -21,7 +23,7 @@ from riskdiet.report.figure_style import (
 from riskdiet.report.layout import Column, esc
 from riskdiet.report.sections import NUM, Builder
 from riskdiet.report.uncertainty_text import (
-    fmt,
+    elasticity,
     index_text,
     interval_text,
     measure_next_sentence,
@@ -43,7 +45,7 @@ def sensitivity_figure(u: UncertaintyResult):
     from matplotlib.figure import Figure
 
     ranked = sorted(goal.indices, key=lambda ix: ix.total)
-    labels = [short_label(ix.input, 34) for ix in ranked]
+    labels = [short_label(input_words(ix.input), 34) for ix in ranked]
     height = 0.9 + 0.32 * len(ranked)
     with _style():
         fig = Figure(figsize=(WIDTH_IN, height), layout="constrained")
@@ -128,9 +130,9 @@ def section(b: Builder, u: UncertaintyResult) -> None:
                        for s in u.scenarios])
     for p in u.scenarios[0].probability_in_diet:
         rows.append([f"chance {esc(p)} is in a healthy animal's diet at the start"]
-                    + [f"{s.probability_in_diet[p]:.2f}" for s in u.scenarios])
+                    + [probability(s.probability_in_diet[p]) for s in u.scenarios])
     rows.append(["share of draws where the classic diet differs"]
-                + [f"{s.classic_disagreement_share:.2f}" for s in u.scenarios])
+                + [percent(s.classic_disagreement_share) for s in u.scenarios])
     b.tables(rows, [Column(max_share=0.34)] + [NUM] * len(u.scenarios))
     b.sub("How robust each finding is")
     b.bullets([esc(robustness_sentence(u, s)) for s in u.scenarios])
@@ -138,7 +140,7 @@ def section(b: Builder, u: UncertaintyResult) -> None:
         b.story.append(Paragraph(
             esc(f"“{s.name}” does better than the baseline on the goal: "
                 f"{describe_probability(s.probability_better)}; the same: "
-                f"p = {s.probability_equal:.2f}; worse: "
+                f"p = {probability(s.probability_equal)}; worse: "
                 f"{describe_probability(s.probability_worse)}."), b.s.bullet, bulletText="•"))
     b.sub("What to measure next")
     b.para(esc(measure_next_sentence(u)))
@@ -149,7 +151,7 @@ def section(b: Builder, u: UncertaintyResult) -> None:
         goal = u.sobol.outcome(u.goal_outcome_key)
         if not goal.constant:
             rows = [["input", "first-order index", "total index"]]
-            rows += [[esc(ix.input), index_text(ix.first, ix.first_low, ix.first_high),
+            rows += [[esc(input_words(ix.input)), index_text(ix.first, ix.first_low, ix.first_high),
                       index_text(ix.total, ix.total_low, ix.total_high)]
                      for ix in sorted(goal.indices, key=lambda ix: -ix.total)]
             b.tables(rows, [Column(max_share=0.4), NUM, NUM], note=(
@@ -160,7 +162,7 @@ def section(b: Builder, u: UncertaintyResult) -> None:
     if flagged:
         b.para(esc("Inputs without a range that matter at the baseline (elasticity of the goal "
                    "outcome, a 1 % change in the input moves it by about e %): "
-                   + ", ".join(f"{e.input} ({e.value:+.2f})" for e in flagged)
+                   + ", ".join(f"{input_words(e.input)} ({elasticity(e.value)})" for e in flagged)
                    + ". Their uncertainty is not in the intervals above; give them ranges."))
     else:
         b.para("No input without a range has an elasticity of 0.5 or more on the goal "
@@ -169,5 +171,5 @@ def section(b: Builder, u: UncertaintyResult) -> None:
 
 def _range_text(x) -> str:
     where = "" if x.scenario is None else f" in {x.scenario}"
-    mode = f", mode {fmt(x.mode)}" if x.mode is not None else ""
-    return f"{x.name}{where} {fmt(x.low)}–{fmt(x.high)} ({x.shape}{mode})"
+    mode = f", mode {value(x.mode)}" if x.mode is not None else ""
+    return f"{input_words(x.name)}{where} {value(x.low)}–{value(x.high)} ({x.shape}{mode})"

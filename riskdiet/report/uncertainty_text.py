@@ -7,6 +7,7 @@ MODEL.md section 9).
 
 from __future__ import annotations
 
+from riskdiet.analysis.glossary import input_words
 from riskdiet.analysis.uncertainty import (
     COHORT_GROUP,
     FITNESS,
@@ -14,14 +15,20 @@ from riskdiet.analysis.uncertainty import (
     ScenarioUncertainty,
     UncertaintyResult,
 )
+from riskdiet.analysis.wording import number, percent, probability
 from riskdiet.core.stats.probability_words import describe_probability, probability_word
 
 
 def fmt(x: float) -> str:
-    """A number for people: three significant figures, thousands separated."""
-    if abs(x) >= 1000:
-        return f"{x:,.0f}"
-    return f"{x:.3g}"
+    """A number for people (:func:`riskdiet.analysis.wording.number`): three significant
+    figures, thousands separated, ``< 0.001`` below."""
+    return number(x)
+
+
+def elasticity(x: float) -> str:
+    """An elasticity with its sign (a direction, not a change): ``-1.3``, ``+0.79``."""
+    text = number(x, 2, floor=0.01)
+    return text if x <= 0 or text.startswith("<") else "+" + text
 
 
 def interval_text(s: ScenarioUncertainty, outcome: str, name: str | None) -> str:
@@ -30,9 +37,12 @@ def interval_text(s: ScenarioUncertainty, outcome: str, name: str | None) -> str
 
 
 def index_text(value: float, low: float, high: float) -> str:
-    """An index with its interval, "≈ 0" when the interval reaches 0."""
+    """An index with its interval, "≈ 0 (up to …)" when the interval reaches 0, and
+    "< 0.001" when even its upper end is below that."""
+    if high < 0.0005:
+        return "< 0.001"
     if low <= 0:
-        return f"≈ 0 ({fmt(max(value, 0.0))}; {fmt(low)} to {fmt(high)})"
+        return f"≈ 0 (up to {fmt(high)})"
     return f"{fmt(value)} ({fmt(low)} to {fmt(high)})"
 
 
@@ -42,7 +52,7 @@ def comparison_sentences(u: UncertaintyResult) -> list[str]:
     for s in u.scenarios[1:]:
         out.append(f"Scenario “{s.name}” gives {u.goal.words} than the baseline: "
                    f"{describe_probability(s.probability_better)}; the same: "
-                   f"p = {s.probability_equal:.2f}; worse: "
+                   f"p = {probability(s.probability_equal)}; worse: "
                    f"{describe_probability(s.probability_worse)}.")
     return out
 
@@ -60,12 +70,13 @@ def measure_next_sentence(u: UncertaintyResult) -> str:
     ranked = sorted(goal.indices, key=lambda ix: -ix.total)
     top = ranked[0]
     rest = [ix for ix in ranked[1:] if not ix.total_about_zero][:2]
-    text = (f"{subject[0].upper() + subject[1:]} depends mostly on {top.input} (total index "
+    text = (f"{subject[0].upper() + subject[1:]} depends mostly on {input_words(top.input)} "
+            "(total index "
             f"{index_text(top.total, top.total_low, top.total_high)}); narrowing its range "
             "would narrow the answer most")
     if rest:
         text += ", then " + " and ".join(
-            f"{ix.input} ({fmt(ix.total)})" for ix in rest)
+            f"{input_words(ix.input)} ({fmt(ix.total)})" for ix in rest)
     return text + "."
 
 
@@ -82,14 +93,14 @@ def robustness_sentence(u: UncertaintyResult, s: ScenarioUncertainty) -> str:
     robust = ("robust to the ranges given" if s.probability_better >= 0.9
               or s.probability_worse >= 0.9 else "not robust to the ranges given")
     return (text + f"; it is {word} to do better than the baseline "
-            f"(p = {s.probability_better:.2f}), so the comparison is {robust}.")
+            f"(p = {probability(s.probability_better)}), so the comparison is {robust}.")
 
 
 def uncertainty_summary(u: UncertaintyResult) -> str:
     """The text printed by ``riskdiet uncertainty``."""
     study = u.study
     lines = [f"Uncertainty: {u.draws} Latin hypercube draws (seed {u.seed}) of "
-             f"{len(u.inputs)} ranges: {', '.join(u.inputs)}.",
+             f"{len(u.inputs)} ranges: {', '.join(input_words(i) for i in u.inputs)}.",
              f"Goal: {u.goal.text} ({u.goal.words}).", ""]
     groups = [i.name for i in u.scenarios[0].intervals if i.outcome == COHORT_GROUP]
     for s in u.scenarios:
@@ -105,7 +116,7 @@ def uncertainty_summary(u: UncertaintyResult) -> str:
                          s.probability_in_diet.items())
         lines.append(f"  in a healthy animal's diet at the start reserves: {diet}")
         lines.append(f"  classic and state-dependent diets differ in "
-                     f"{s.classic_disagreement_share:.0%} of draws")
+                     f"{percent(s.classic_disagreement_share)} of draws")
         lines.append("")
     lines += comparison_sentences(u)
     if u.sobol is not None:
@@ -121,13 +132,14 @@ def uncertainty_summary(u: UncertaintyResult) -> str:
             for ix in sorted(o.indices, key=lambda ix: -ix.total):
                 first = index_text(ix.first, ix.first_low, ix.first_high)
                 total = index_text(ix.total, ix.total_low, ix.total_high)
-                lines.append(f"    {ix.input}: first {first}, total {total}")
+                lines.append(f"    {input_words(ix.input)}: first {first}, total {total}")
     lines += ["", "Measure next: " + measure_next_sentence(u)]
     flagged = u.influential_without_range()
     if flagged:
         lines.append("Influential inputs without a range (elasticity of the goal outcome at the "
-                     "baseline, |e| ≥ 0.5): " + ", ".join(f"{e.input} ({e.value:+.2f})"
-                                                          for e in flagged)
+                     "baseline, |e| ≥ 0.5): "
+                     + ", ".join(f"{input_words(e.input)} ({elasticity(e.value)})"
+                                 for e in flagged)
                      + "; consider giving them ranges.")
     lines += ["", "Read the intervals as what the ranges entered imply, not as forecasts; "
               f"study: {study.name}."]

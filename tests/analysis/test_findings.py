@@ -7,6 +7,7 @@ from pathlib import Path
 
 import riskdiet
 from riskdiet.analysis.compare import entry_reserves
+from riskdiet.analysis.wording import amount
 from riskdiet.validation import build_study
 
 EXAMPLE = Path(__file__).resolve().parents[2] / "examples" / "harrow-vale.json"
@@ -26,7 +27,7 @@ def test_findings_quote_the_computed_numbers():
         assert f"{livestock:,.0f} livestock" in s.findings[0]
         assert any(f"probability {s.fitness_at_start:.2f}" in f for f in s.findings)
         top = max(s.kills.kills_per_predator_per_year.items(), key=lambda kv: kv[1])
-        assert any(f"{top[1]:.1f} {top[0]}" in f for f in s.findings)
+        assert any(f"{amount(top[1])} {top[0]}" in f for f in s.findings)
 
 
 def test_unwanted_prey_threshold_sentence_matches_policy():
@@ -58,9 +59,14 @@ def test_findings_change_with_inputs():
 
 def test_scenario_findings_compare_with_baseline():
     """Non-baseline scenarios say how the chance changes against the baseline, with the
-    signed difference of the two computed values."""
+    signed difference of the two computed values (in words where it rounds to zero)."""
     result = riskdiet.solve(riskdiet.load_study(EXAMPLE))
     base = result.scenarios[0]
     for s in result.scenarios[1:]:
         d = s.fitness_at_start - base.fitness_at_start
-        assert any(f"changes by {d:+.2f}" in f for f in s.findings)
+        if abs(d) >= 0.005:
+            assert any(f"changes by {d:+.2f}" in f for f in s.findings)
+        else:  # a difference that rounds to nothing is said in words, never as "-0.00"
+            assert any("changes by less than 0.01" in f or "does not change" in f
+                       for f in s.findings)
+            assert not any("-0.00" in f or "+0.00 " in f for f in s.findings)

@@ -41,9 +41,9 @@ def test_workbook_sheets_numbers_and_provenance(result, tmp_path):
     for s in result.scenarios:
         assert s.name in names
     ws = wb["baseline"]
-    h = _header_row(ws, "level")
+    h = _header_row(ws, "Energy level")
     assert ws.freeze_panes == f"A{h + 1}"
-    first = ws.cell(row=h + 1 + 50, column=4)  # fitness_healthy at level 50
+    first = ws.cell(row=h + 1 + 50, column=4)  # fitness of a healthy animal at level 50
     assert isinstance(first.value, float)
     assert first.value == pytest.approx(float(result.scenarios[0].fitness["healthy"][50]))
     assert first.number_format == "0.0000"
@@ -54,16 +54,19 @@ def test_workbook_sheets_numbers_and_provenance(result, tmp_path):
 
 
 def test_csv_tables_match_workbook(result, tmp_path):
-    """--csv writes the same Kills table as the workbook (one source of tables)."""
+    """--csv writes the same Kills table as the workbook (one source of tables): the same
+    rows, the CSV header holding each column's key and the workbook its words."""
     wb_path = write_results_workbook(result, tmp_path / "r.xlsx")
     paths = write_results_csv(result, tmp_path / "csv")
     kills_csv = next(p for p in paths if p.name == "kills.csv")
     with open(kills_csv, encoding="utf-8") as fh:
         rows = list(csv.reader(fh))
     ws = openpyxl.load_workbook(wb_path)["Kills"]
-    h = _header_row(ws, "scenario")
+    h = _header_row(ws, "Scenario")
     sheet_rows = [[c.value for c in r] for r in ws.iter_rows(min_row=h)]
-    assert rows[0] == sheet_rows[0]
+    assert rows[0][:4] == ["scenario", "prey", "group", "kills_per_predator_per_day"]
+    assert sheet_rows[0][:4] == ["Scenario", "Prey", "Group", "Kills per predator per day"]
+    assert len(rows[0]) == len(sheet_rows[0])
     assert len(rows) == len(sheet_rows)
     for a, b in zip(rows[1:], sheet_rows[1:], strict=True):
         assert a[1] == b[1]
