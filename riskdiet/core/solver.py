@@ -405,6 +405,10 @@ def solve_breeding(grid: Grid, max_iterations: int = MAX_POLICY_ITERATIONS, *,
         v = lu(breed, v_full[:, 1:top].reshape(-1))
         u = lu(deaths.sum(0), u_full[:, 1:top].reshape(-1))
         _check_values(v, u, str(iteration))
+        # (I - P) is an M-matrix with a nonnegative inverse, so V and U are >= 0; a rounded
+        # -4e-18 where the true value is 0 would make a worthless attack (value 0) look
+        # better than a hopeless day (value "-0") and enter the policy.
+        v, u = np.maximum(v, 0.0), np.maximum(u, 0.0)
         v_full[:, 1:top] = v.reshape(2, m)
         u_full[:, 1:top] = u.reshape(2, m)
         cv = choice_values(grid, tg, v_full, u_full, np.broadcast_to(v_full, (n_prey, 2, top + 1)),

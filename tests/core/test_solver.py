@@ -407,3 +407,25 @@ def test_leaving_out_the_marginal_changes_nothing_else():
     np.testing.assert_array_equal(lean.complement, full.complement)
     assert np.isnan(lean.marginal_hunting_ability)
     assert np.isnan(lean.marginal_by_level[:, grid.living]).all()
+
+
+def test_rounding_below_zero_never_puts_a_worthless_attack_in_the_policy():
+    """A prey that is never met and whose attack always kills (value 0) stays out of the policy
+    even where policy iteration passes through hopeless states (true value 0, solved as about
+    -4e-18): V >= 0 because I - P is an M-matrix with a nonnegative inverse (Berman & Plemmons
+    1994, ch. 6), so a rounded negative is no reason to prefer a value of 0 (MODEL.md section 3).
+    The case is the smallest one hypothesis found for the invariant above."""
+    predator = Predator(name="predator", reserve_capacity_mj=10.0, energy_levels=10,
+                        daily_cost_mj=0.5, hunting_ability=0.5, currency="breeding",
+                        breeding_threshold=1.0, start_reserves=0.5, reserves_after_breeding=0.5,
+                        injured_capture_factor=0.0, background_mortality=0.0)
+    never_met = Prey(name="prey 0", encounters_per_day=0.0, energy_mj=0.0, handling_days=0.0,
+                     capture_success=0.0)
+    hurts = Prey(name="prey 1", encounters_per_day=1.0, energy_mj=1.0, handling_days=0.0,
+                 capture_success=1.0, injury_chance=1.0, injury_energy_mj=1.0)
+    grid = make_grid(predator, (never_met, hurts))
+    fatality = grid.fatality.copy()
+    fatality[0] = 1.0
+    sol = solve_grid(dataclasses.replace(grid, fatality=fatality))
+    assert np.all(sol.priority[..., 0] == -1)
+    assert np.all(sol.fitness >= 0.0)
