@@ -236,6 +236,11 @@ def _appendix(b: Builder, plan: BriefPlan) -> None:
                   f"above {technical(1e-9)} is refused). Season currency: backward induction over "
                   "the days of the season (exact; rounds = days). Reserves "
                   "x<sub>j</sub> = j·R/n; level 0 is death by starvation.")
+    if b.result.map is not None:
+        surface = b.result.map
+        b.para(f"Map of section {b.number(MAPS)}: largest Bellman residual over its "
+               f"{surface.x.size * surface.y.size:,} cells "
+               f"{technical(surface.max_residual)}.", b.s.small)
     b.sub("Grid check")
     rows = [["scenario", "levels compared", "fitness at start, change",
              "largest kill change (prey with ≥ 1 % of kills)", "verdict"]]

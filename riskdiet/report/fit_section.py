@@ -14,7 +14,13 @@ from riskdiet.analysis.fit import FitResult
 from riskdiet.analysis.glossary import input_words
 from riskdiet.analysis.wording import value as number_value
 from riskdiet.model import Study
-from riskdiet.report.figure_style import WIDTH_IN, BriefFigure, _bar_style, _style, short_label
+from riskdiet.report.figure_style import (
+    WIDTH_IN,
+    BriefFigure,
+    _style,
+    scenario_bar_style,
+    short_label,
+)
 from riskdiet.report.fit_text import statistics_words
 from riskdiet.report.layout import Column, esc
 from riskdiet.report.sections import NUM, Builder
@@ -36,8 +42,9 @@ def fit_figure(fit: FitResult) -> object:
         ax = fig.subplots()
         obs = [100 * fit.observed[n] for n in names]
         pred = [100 * fit.predicted[n] for n in names]
-        ax.bar(x - 0.2, obs, 0.38, label="observed", **_bar_style(0))
-        ax.bar(x + 0.2, pred, 0.38, label="predicted at the fitted values", **_bar_style(1))
+        ax.bar(x - 0.2, obs, 0.38, label="observed", **scenario_bar_style(0))
+        ax.bar(x + 0.2, pred, 0.38, label="predicted at the fitted values",
+               **scenario_bar_style(2))
         ax.set_xticks(x, [short_label(n, 18) for n in names])
         ax.set_ylabel("share of records [%]")
         ax.legend(frameon=False, fontsize=8)

@@ -14,10 +14,11 @@ from riskdiet.analysis.uncertainty import COHORT_GROUP, FITNESS, UncertaintyResu
 from riskdiet.analysis.wording import percent, probability, value
 from riskdiet.core.stats.probability_words import describe_probability
 from riskdiet.report.figure_style import (
-    PALETTE,
+    SCENARIO_GREYS,
     WIDTH_IN,
     BriefFigure,
     _style,
+    hatch_colour,
     short_label,
 )
 from riskdiet.report.layout import Column, esc
@@ -55,11 +56,11 @@ def sensitivity_figure(u: UncertaintyResult):
         first = [max(ix.first, 0.0) for ix in ranked]
         err = [[t - max(ix.total_low, 0.0) for t, ix in zip(total, ranked, strict=True)],
                [max(ix.total_high - t, 0.0) for t, ix in zip(total, ranked, strict=True)]]
-        ax.barh([v + 0.2 for v in y], total, height=0.38, color=PALETTE[0],
+        ax.barh([v + 0.2 for v in y], total, height=0.38, color=SCENARIO_GREYS[1],
                 label="total index (with interactions)", xerr=err, capsize=2,
                 error_kw={"linewidth": 0.8})
-        ax.barh([v - 0.2 for v in y], first, height=0.38, color=PALETTE[1], hatch="////",
-                edgecolor="white", label="first-order index (alone)")
+        ax.barh([v - 0.2 for v in y], first, height=0.38, color=SCENARIO_GREYS[2], hatch="////",
+                edgecolor=hatch_colour(SCENARIO_GREYS[2]), label="first-order index (alone)")
         ax.set_yticks(list(y), labels)
         ax.set_xlabel("share of the variance of " + _goal_label(u))
         ax.set_xlim(0, max(1.0, max(ix.total_high for ix in ranked)))
