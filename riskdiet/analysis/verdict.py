@@ -36,12 +36,16 @@ class Verdict:
         the baseline).
     summary : str
         One sentence naming the scenario the study favours on its goal.
+    groups : tuple of str
+        The prey groups the sentences name (those other than wild, or every group
+        when all are wild).
     """
 
     goal_words: str
     ranking: tuple[str, ...]
     sentences: dict[str, str]
     summary: str
+    groups: tuple[str, ...] = ()
 
 
 def _goal_value(s: ScenarioResult, kind: str, name: str) -> float:
@@ -88,14 +92,19 @@ def verdict(result: StudyResult) -> Verdict:
         tied = f" (tied with {', '.join(same[1:])})" if len(same) > 1 else ""
         summary = (f"On the study's goal ({goal_words}), {best.name} does best{tied}; "
                    "the full order, best first: " + ", ".join(ranking) + ".")
-    return Verdict(goal_words, ranking, sentences, summary)
+    return Verdict(goal_words, ranking, sentences, summary, tuple(_groups(base)))
+
+
+def _groups(s: ScenarioResult) -> list[str]:
+    """The groups a plan is about: those other than wild, or all when every prey is wild."""
+    kills = s.cohort.kills_by_group
+    return [g for g in kills if g.strip().lower() not in WILD] or list(kills)
 
 
 def _sentence(s: ScenarioResult, base: ScenarioResult, kind: str, name: str) -> str:
     c = s.cohort
     animals = f"the {c.animals} released animal" + ("" if c.animals == 1 else "s")
-    groups = [g for g in c.kills_by_group if g.strip().lower() not in WILD] or list(
-        c.kills_by_group)
+    groups = _groups(s)
     kills = ", ".join(f"{amount(c.kills_by_group[g])} {g}" for g in groups)
     if s is base:
         lead = f"{s.name}: {animals} are expected to kill {kills} prey {_when(s)}"

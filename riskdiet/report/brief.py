@@ -326,6 +326,7 @@ def brief_story(plan: BriefPlan) -> tuple[list, list[str]]:
     if plan.fit is not None:
         b.para(esc(fit_page_one(b.study, plan.fit)))
     start = len(b.story)
+    b.uncertainty = u  # the verdict on page 1 says how sure each sentence is
     b.summary()
     if u is not None:
         # page 1: the intervals go right after the summary's opening paragraphs, before the

@@ -182,6 +182,7 @@ class Builder:
         self.figure_order = [f.key for f in figures]
         self.drawn: list[str] = []
         self.titles = section_titles(result)
+        self.uncertainty = None  # an UncertaintyResult when the study has ranges (brief.py)
 
     # --- small helpers -----------------------------------------------------------------------
     def para(self, text: str, style=None) -> None:
@@ -282,11 +283,17 @@ class Builder:
         v = verdict(self.result)
         self.para("Verdict", self.s.h2)
         self.para(f"<b>{esc(v.summary)}</b>")
+        u = self.uncertainty
         lines = []
         for s in self.result.scenarios:
             change = "" if not self.study.scenario(s.name).changes else (
                 f" <i>(Changes: {esc(self.changes_text(s.name))}.)</i>")
-            lines.append(esc(v.sentences[s.name]) + change)
+            sure = ""
+            if u is not None:
+                from riskdiet.report.uncertainty_text import verdict_how_sure
+
+                sure = " " + esc(verdict_how_sure(u, s.name, list(v.groups)))
+            lines.append(esc(v.sentences[s.name]) + sure + change)
         self.bullets(lines)
 
     def cohort_table(self, scenarios) -> None:

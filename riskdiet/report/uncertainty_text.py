@@ -144,3 +144,28 @@ def uncertainty_summary(u: UncertaintyResult) -> str:
     lines += ["", "Read the intervals as what the ranges entered imply, not as forecasts; "
               f"study: {study.name}."]
     return "\n".join(lines)
+
+
+def verdict_how_sure(u: UncertaintyResult, name: str, groups: list[str]) -> str:
+    """Page 1: how sure one scenario's verdict sentence is, in one sentence.
+
+    The 5–95 % interval of the released animals' kills of each named group over the
+    draws, and (for a scenario other than the baseline) the paired chance that it does
+    better on the study's goal, in words with its number.
+    """
+    s = next(x for x in u.scenarios if x.name == name)
+    parts = []
+    for g in groups:
+        try:
+            i = s.interval(COHORT_GROUP, g)
+        except StopIteration:
+            continue
+        parts.append(f"{g} {fmt(i.p05)} to {fmt(i.p95)}")
+    text = ""
+    if parts:
+        text = (f"5–95 % range over {u.draws} draws of the uncertain inputs: "
+                + ", ".join(parts) + ".")
+    if s is not u.scenarios[0]:
+        text += (f" Better than the baseline on the goal: "
+                 f"{describe_probability(s.probability_better)}.")
+    return text.strip()

@@ -33,3 +33,22 @@ def test_brief_shows_intervals_on_page_one_and_the_section():
     assert "Uncertainty and sensitivity" in text
     assert "narrowing its range would narrow the answer most" in text.replace("\n", " ")
     assert "Sobol indices of livestock kills" in text.replace("\n", " ")
+
+
+def test_page_one_verdict_says_how_sure_each_scenario_is():
+    """Each verdict sentence on page 1 carries the 5-95 % range of the released animals'
+    kills of the plan's groups over the draws and, for a scenario other than the baseline,
+    the paired chance that it beats the baseline on the goal in IPCC AR5 words with the
+    number (Mastrandrea et al. 2010): the manager need not turn the page to know how sure."""
+    raw = small([{"prey": "sheep", "field": "capture_success", "low": 0.3, "high": 0.8}],
+                draws=16, report_date="2026-12-01")
+    study = build_study(raw)
+    unc = run_uncertainty(study, sobol_n=16)
+    pdf = PdfReader(io.BytesIO(build_brief(solve(study), uncertainty=unc)))
+    first = " ".join(pdf.pages[0].extract_text().split())
+    verdict = first[first.index("Verdict"):]
+    for s in unc.scenarios:
+        i = s.interval("cohort_kills_by_group", "livestock")
+        assert f"livestock {i.p05:.3g} to {i.p95:.3g}" in verdict
+    assert verdict.count("range over 16 draws of the uncertain inputs") == len(unc.scenarios)
+    assert verdict.count("Better than the baseline on the goal: ") == len(unc.scenarios) - 1
