@@ -85,7 +85,7 @@ def make_styles(fonts: FontSet) -> Styles:
         h1=ParagraphStyle("h1", parent=body, fontName=fonts.bold, fontSize=13.5, leading=17,
                           spaceBefore=10, spaceAfter=6, keepWithNext=1),
         h2=ParagraphStyle("h2", parent=body, fontName=fonts.bold, fontSize=10.5, leading=13.5,
-                          spaceBefore=8, spaceAfter=4),
+                          spaceBefore=8, spaceAfter=4, keepWithNext=1),
         caption=ParagraphStyle("caption", parent=body, fontName=fonts.italic, fontSize=8,
                                leading=10.4, spaceBefore=2, spaceAfter=8),
         cell=cell,

@@ -213,12 +213,19 @@ class Builder:
 
     def tables(self, rows, columns, keep: int = 1, note: str | None = None) -> None:
         parts = split_wide(rows, columns, self.s, self.width, keep)
+        last = self.story[-1] if self.story else None
+        lead = []
+        if isinstance(last, Paragraph) and last.style is self.s.h2:
+            lead = [self.story.pop()]  # a sub-heading moves with its table, never alone
         for i, table in enumerate(parts):
             if i:
                 self.story.append(Spacer(1, 5))
             # a short part of a split table moves whole to the next page rather than break
-            self.story.append(KeepTogether([table]) if len(parts) > 1 and len(rows) <= 25
-                              else table)
+            if len(parts) > 1 and len(rows) <= 25:
+                self.story.append(KeepTogether([*lead, table]))
+            else:
+                self.story.extend([*lead, table])
+            lead = []
         if note:
             self.para(note, self.s.small)
         self.story.append(Spacer(1, 6))
