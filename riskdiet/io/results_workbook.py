@@ -10,6 +10,23 @@ from riskdiet.io.atomic import OutputSet, write_atomic
 from riskdiet.io.results_tables import Table, glossary_table, results_tables, table_names
 from riskdiet.model import Study
 
+WIDE = 12
+"""A table with more columns than this and at most :data:`FEW` rows (one per scenario) is shown
+turned (one row per quantity, one column per scenario) so that it prints legibly on a page; the
+CSV file keeps one row per scenario."""
+FEW = 12
+
+
+def turned(table: Table) -> Table:
+    """A wide table with rows and columns swapped: a row per column of ``table`` (its words,
+    then its key), a column per row of ``table`` (named by the row's first cell)."""
+    rows = [r for r in table.rows if r]
+    keys = table.column_keys
+    header = ["Quantity", "Key (CSV column)", *(str(r[0]) for r in rows)]
+    out = [[table.header[j], keys[j], *(r[j] if j < len(r) else None for r in rows)]
+           for j in range(1, len(table.header))]
+    return Table(table.name, table.title, header, out, {}, table.notes, [])
+
 
 def _write_sheet(ws, table: Table) -> None:
     import textwrap
@@ -17,6 +34,11 @@ def _write_sheet(ws, table: Table) -> None:
     from openpyxl.styles import Alignment, Font
     from openpyxl.utils import get_column_letter
 
+    row_formats = {}
+    if len(table.header) > WIDE and len([r for r in table.rows if r]) <= FEW:
+        # number formats belong to the former columns, now rows
+        row_formats = {j - 1: f for j, f in table.formats.items() if j >= 1}
+        table = turned(table)
     ws.append([table.title])
     ws["A1"].font = Font(bold=True, size=12)
     for note in table.notes:
@@ -32,6 +54,10 @@ def _write_sheet(ws, table: Table) -> None:
         letter = get_column_letter(col + 1)
         for r in range(header_row + 1, ws.max_row + 1):
             cell = ws[f"{letter}{r}"]
+            if isinstance(cell.value, (int, float)) and not isinstance(cell.value, bool):
+                cell.number_format = fmt
+    for row, fmt in row_formats.items():
+        for cell in ws[header_row + 1 + row]:
             if isinstance(cell.value, (int, float)) and not isinstance(cell.value, bool):
                 cell.number_format = fmt
     ws.freeze_panes = ws.cell(row=header_row + 1, column=1)

@@ -93,3 +93,34 @@ def test_refuses_overwrite_and_input(result, tmp_path):
         write_results_workbook(res, copy, force=True)
     assert copy.read_bytes() == before
     assert not list(tmp_path.glob(".*.part"))
+
+
+def test_wide_scenario_tables_are_turned_in_the_workbook_only(result, tmp_path):
+    """The Comparison table (more than WIDE columns, a row per scenario) is shown turned in the
+    workbook so it prints legibly: each scenario's column holds exactly the numbers of its row in
+    the CSV file (read back with the standard library's csv module), which keeps one row per
+    scenario (common practice for tidy data: a row per observation)."""
+    from riskdiet.io.results_workbook import WIDE
+
+    wb = openpyxl.load_workbook(write_results_workbook(result, tmp_path / "r.xlsx"))
+    paths = write_results_csv(result, tmp_path / "csv")
+    path = next(p for p in paths if "comparison" in p.name.lower())
+    with open(path, newline="", encoding="utf-8") as fh:
+        rows = list(csv.reader(fh))
+    header, scenarios = rows[0], [r for r in rows[1:] if r and r[0] in
+                                  {s.name for s in result.scenarios}]
+    assert len(header) > WIDE
+    ws = wb["Comparison"]
+    head = next(r for r in ws.iter_rows(values_only=True) if r and r[0] == "Quantity")
+    body = [r for r in ws.iter_rows(values_only=True) if r and r[1] in header[1:]]
+    assert [r[1] for r in body] == header[1:]
+    for row in scenarios:
+        col = head.index(row[0])
+        for j in range(1, len(header)):
+            shown = body[j - 1][col]
+            if row[j] == "":
+                assert shown is None
+            elif isinstance(shown, (int, float)) and not isinstance(shown, bool):
+                assert shown == pytest.approx(float(row[j]), rel=1e-12)
+            else:
+                assert str(shown) == row[j]
