@@ -7,7 +7,7 @@ n = 100 energy levels, five prey, injuries on):
   currency, 120 days, over its own map axes), through
   :func:`riskdiet.analysis.maps.make_map` inline and on two worker processes,
   against a loop of single season solves (:func:`riskdiet.core.solver.solve_season`
-  and :func:`riskdiet.core.chain.season_outlook` per cell, timed on a sample and
+  and :func:`riskdiet.core.season_chain.season_outlook` per cell, timed on a sample and
   extrapolated, labelled so);
 * 4,000 complete solves (1,000 draws x 4 scenarios, breeding currency: policy,
   value of hunting ability, long-run kills, the released cohort over 365 days,

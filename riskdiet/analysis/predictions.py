@@ -13,9 +13,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.core.chain import SeasonOutlook, kill_rates, season_outlook, steady_state
+from riskdiet.core.chain import kill_rates, steady_state
 from riskdiet.core.cohort import released_cohort
 from riskdiet.core.grid import Grid
+from riskdiet.core.season_chain import SeasonOutlook, season_outlook
 from riskdiet.core.solver import Solution
 from riskdiet.model import Predator, Prey
 

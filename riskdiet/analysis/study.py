@@ -32,9 +32,9 @@ from riskdiet.analysis.predictions import (
 )
 from riskdiet.analysis.results import CONDITIONS, ScenarioResult, StudyResult, policy_names
 from riskdiet.analysis.verdict import verdict
-from riskdiet.core.chain import season_outlook
 from riskdiet.core.classic import classic_prey_model
 from riskdiet.core.grid import Grid, make_grid
+from riskdiet.core.season_chain import season_outlook
 from riskdiet.core.solver import Solution, solve_breeding, solve_grid, solve_season
 from riskdiet.errors import SolveError
 from riskdiet.model import Predator, Prey, Scenario, Study

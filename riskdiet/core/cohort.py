@@ -18,7 +18,7 @@ counts on the day its step ends, and the animal goes on at (round(rho n),
 healthy).
 
 Season currency: the season's own forward propagation
-(:func:`riskdiet.core.chain.season_outlook`) over the season; no breeding events.
+(:func:`riskdiet.core.season_chain.season_outlook`) over the season; no breeding events.
 
 Many cells (map cells, scenarios, draws) are pushed forward together: their
 transitions form one block-diagonal sparse matrix per step length, so each day
@@ -40,7 +40,6 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 
-from riskdiet.core.chain import SeasonOutlook, season_outlook
 from riskdiet.core.grid import (
     Grid,
     Outcome,
@@ -50,6 +49,7 @@ from riskdiet.core.grid import (
     stack_grids,
     targets,
 )
+from riskdiet.core.season_chain import SeasonOutlook, season_outlook
 from riskdiet.core.solver import Solution
 from riskdiet.errors import RiskdietError
 
@@ -309,7 +309,7 @@ def released_cohort(grid: Grid, solution: Solution, horizon_days: int,
         L [day]; ignored in the season currency, whose horizon is the season.
     season : SeasonOutlook, optional
         Season currency: the season's propagation when already computed
-        (:func:`riskdiet.core.chain.season_outlook` of the same grid and
+        (:func:`riskdiet.core.season_chain.season_outlook` of the same grid and
         solution), so that it is not computed twice.
 
     Returns

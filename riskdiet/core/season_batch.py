@@ -6,7 +6,7 @@ backward induction (MODEL.md section 3) and the forward propagation of its
 kills and survival (section 5) over a stacked grid
 (:func:`riskdiet.core.grid.stack_grids`) at once. Each cell equals
 :func:`riskdiet.core.solver.solve_season` followed by
-:func:`riskdiet.core.chain.season_outlook` of its own grid to rounding: the
+:func:`riskdiet.core.season_chain.season_outlook` of its own grid to rounding: the
 same choice values, the same comparison rule and default sets, the same
 policies, only arranged for speed:
 
@@ -227,7 +227,7 @@ def _forward(grid: Grid, tg: Targets, policies: _Policies, keys: np.ndarray,
              handling: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Expected kills, survival by day and the end-of-season chance of being in condition.
 
-    The conventions of :func:`riskdiet.core.chain.season_outlook`: a step started on day
+    The conventions of :func:`riskdiet.core.season_chain.season_outlook`: a step started on day
     t ends on day min(t + 1 + H_i, T); an animal in the middle of a step it survives
     counts as alive; kills count on the start day. Arrivals are kept by day, level 0
     (death) included, on days up to T + max H_i; those on or after day T are the

@@ -241,7 +241,8 @@ def _comparison(result: StudyResult) -> Table:
     for i, c in enumerate(table.columns):
         formats[i] = {"probability": "0.000", "fraction": "0%", "count": "0.0"}.get(c.kind, "")
     return Table.from_keys("Comparison", "Scenarios compared, with each scenario's change "
-                 "against the baseline (“… minus baseline”)", header, rows + ([[]] if delta_rows else []) + delta_rows,
+                 "against the baseline (“… minus baseline”)", header,
+                 rows + ([[]] if delta_rows else []) + delta_rows,
                  {k: v for k, v in formats.items() if v},
                  notes=["“takes it below”: the reserves, as a share of capacity, below which "
                         "the prey is taken (blank: never)."])

@@ -22,7 +22,7 @@ Kingman, J. F. C. (1993). Poisson Processes. Oxford University Press, ch. 2
 (superposition: independent Poisson encounter streams add their rates).
 The reference solves are riskdiet.core.solver.solve_grid on riskdiet.core.grid.make_grid
 (tested separately against Feller's ruin problem and an independent simulation),
-riskdiet.core.chain.steady_state and riskdiet.core.chain.season_outlook.
+riskdiet.core.chain.steady_state and riskdiet.core.season_chain.season_outlook.
 """
 
 from __future__ import annotations
@@ -40,8 +40,9 @@ from hypothesis import strategies as st
 
 from riskdiet.analysis.maps import MapRequest, cell_inputs, make_map, parse_axis
 from riskdiet.analysis.regimes import classify
-from riskdiet.core.chain import season_outlook, steady_state
+from riskdiet.core.chain import steady_state
 from riskdiet.core.grid import make_grid
+from riskdiet.core.season_chain import season_outlook
 from riskdiet.core.solver import solve_grid
 from riskdiet.errors import StudyError
 from riskdiet.model import BASELINE
@@ -175,7 +176,7 @@ def test_season_map_cells_equal_single_solves():
     """Season-currency cells equal their own backward induction (Mangel & Clark
     1988): fitness at the start, marginal value of hunting ability, the day-0
     attack sets (through the regime detail) and the expected kills of the
-    season by group from the forward chain (riskdiet.core.chain.season_outlook)."""
+    season by group from the forward chain (riskdiet.core.season_chain.season_outlook)."""
     study = injury_study(24, currency="season", season_days=30)
     req = map_request(study, "deer:injury_chance=0:0.6:4", "hunting_ability=0.5:1.5:3")
     result = make_map(study, req)

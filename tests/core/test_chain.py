@@ -35,10 +35,10 @@ from riskdiet.core.chain import (
     always_absorbed,
     chain_step,
     kill_rates,
-    season_outlook,
     steady_state,
 )
 from riskdiet.core.grid import make_grid
+from riskdiet.core.season_chain import season_outlook
 from riskdiet.core.solver import solve_grid
 from riskdiet.model import Predator, Prey
 

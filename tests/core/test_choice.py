@@ -123,7 +123,7 @@ def test_a_long_season_keeps_foraging_where_values_underflow():
     grid = make_grid(pred, (Prey(**HARE),))
     sol = solver.solve_season(grid)
     assert (sol.priority[0, grid.living, 0] >= 0).all()
-    from riskdiet.core.chain import season_outlook
+    from riskdiet.core.season_chain import season_outlook
 
     assert season_outlook(grid, sol).expected_kills[0] > 1.0
 

@@ -8,7 +8,7 @@ ranked above i of (1 - p_l); the season's backward induction) and section 5
 for the ranking (the single solver's own ranking, riskdiet.core.choice),
 explicit products written here for P_i, counting of ranked subsets
 (sum_k P!/(P-k)!, common practice), and the single-cell solvers
-riskdiet.core.solver.solve_season and riskdiet.core.chain.season_outlook, which
+riskdiet.core.solver.solve_season and riskdiet.core.season_chain.season_outlook, which
 share none of the batch's sparse matrices, pairwise ranking or set tables.
 """
 
@@ -23,11 +23,11 @@ from conftest import grid_of, injury_raw
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from riskdiet.core.chain import season_outlook
 from riskdiet.core.choice import ChoiceValues, choice_values, greedy_sets
 from riskdiet.core.grid import attack_probabilities, stack_grids, targets
 from riskdiet.core.ranked_sets import greedy_ranks, set_table
 from riskdiet.core.season_batch import solve_season_batch
+from riskdiet.core.season_chain import season_outlook
 from riskdiet.core.season_plan import backward_step
 from riskdiet.core.solver import solve_season
 
