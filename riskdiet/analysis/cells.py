@@ -29,7 +29,7 @@ import numpy as np
 
 from riskdiet.core.batch import SUB_BATCH, solve_breeding_batch
 from riskdiet.core.choice import one_step_value, step_values
-from riskdiet.core.classic import classic_prey_model
+from riskdiet.core.classic_batch import rate_maximizing_diets
 from riskdiet.core.cohort import cohort_batch, median_day
 from riskdiet.core.grid import (
     attack_probabilities,
@@ -297,13 +297,13 @@ def _failed(label: str, reason: str, currency: str, n_prey: int) -> CellResult:
                       np.zeros(n_prey, bool), np.zeros(n_prey, bool))
 
 
-def _classic_mask(predator: Predator, prey: tuple[Prey, ...], success: np.ndarray) -> np.ndarray:
-    classic = classic_prey_model(
-        [p.name for p in prey], [p.encounters(predator) for p in prey],
-        [p.energy_mj for p in prey], [p.handling_days for p in prey], success,
-        [p.fatality_chance for p in prey], predator.background_mortality,
-        predator.effective_daily_cost_mj)
-    return np.array([p.name in classic.rate_maximizing_diet for p in prey])
+def _classic_masks(inputs: list[tuple[Predator, tuple[Prey, ...]]], success: np.ndarray
+                   ) -> np.ndarray:
+    """Charnov's rate-maximising diet of every cell (that of
+    :func:`riskdiet.core.classic.classic_prey_model`), shape (B, P)."""
+    columns = np.array([[(p.encounters(predator), p.energy_mj, p.handling_days) for p in prey]
+                        for predator, prey in inputs], dtype=float)
+    return rate_maximizing_diets(columns[..., 0], columns[..., 1], columns[..., 2], success)
 
 
 def _solve_group(cells: list[Cell], inputs: list[tuple[Predator, tuple[Prey, ...]]],
@@ -349,8 +349,9 @@ def _solve_group(cells: list[Cell], inputs: list[tuple[Predator, tuple[Prey, ...
         if gradient is not None:
             extra = [None if failures[b] else _season_extra(inputs[b], gradient)
                      for b in range(len(cells))]
+    classic = _classic_masks(inputs, grid.capture[:, 0])
     out = []
-    for b, (predator, prey) in enumerate(inputs):
+    for b, (predator, _) in enumerate(inputs):
         if failures[b] is not None:
             out.append(_failed(labels[b], failures[b], currency, n_prey))
             continue
@@ -366,7 +367,7 @@ def _solve_group(cells: list[Cell], inputs: list[tuple[Predator, tuple[Prey, ...
             cohort_breeding_events=None if breeding is None else animals * float(breeding[b]),
             cohort_median_survival_days=median_day(alive[b]),
             attacked_at_start=np.asarray(priority[b][0, start] >= 0),
-            classic_diet=_classic_mask(predator, prey, grid.capture[b, 0]),
+            classic_diet=classic[b],
             residual=float(residual[b]), marginal_extra=extra[b],
             policy=np.asarray(priority[b], dtype=np.int8) if keep_policy else None))
     return out
