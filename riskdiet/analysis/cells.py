@@ -27,6 +27,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from riskdiet.analysis.batch_checks import problem_free
 from riskdiet.core.batch import SUB_BATCH, solve_breeding_batch
 from riskdiet.core.choice import one_step_value, step_values
 from riskdiet.core.classic_batch import rate_maximizing_diets
@@ -199,6 +200,16 @@ def cell_inputs(study: Study, cell: Cell) -> tuple[Predator, tuple[Prey, ...]]:
         When a value, or a scenario change applied to a drawn value, leaves its
         bounds; the problems name the cell.
     """
+    predator, prey, problems = _changed_inputs(study, cell)
+    if not problems:
+        problems = _value_problems(cell, predator, prey)
+    if problems:
+        raise StudyError(problems)
+    return predator, prey
+
+
+def _changed_inputs(study: Study, cell: Cell) -> tuple[Predator, tuple[Prey, ...], list]:
+    """The cell's inputs, and the problems of applying the scenario's changes to them."""
     predator, prey = study.predator, study.baseline_prey
     for ch in cell.changes:
         if ch.stage == BASELINE_STAGE:
@@ -207,13 +218,15 @@ def cell_inputs(study: Study, cell: Cell) -> tuple[Predator, tuple[Prey, ...]]:
     for ch in cell.changes:
         if ch.stage == FINAL_STAGE:
             predator, prey = set_input(predator, prey, ch.prey, ch.field, ch.value)
-    if not problems:
-        problems, _ = check_values(predator, prey,
-                                   lambda f: f"{describe_cell(cell)}: predator.{f}",
-                                   lambda i, f: f"{describe_cell(cell)}: {prey[i].name}.{f}")
-    if problems:
-        raise StudyError(problems)
-    return predator, prey
+    return predator, prey, problems
+
+
+def _value_problems(cell: Cell, predator: Predator, prey: tuple[Prey, ...]) -> list:
+    """check_values's problems of a cell's inputs, located in the cell."""
+    problems, _ = check_values(predator, prey,
+                               lambda f: f"{describe_cell(cell)}: predator.{f}",
+                               lambda i, f: f"{describe_cell(cell)}: {prey[i].name}.{f}")
+    return problems
 
 
 def describe_cell(cell: Cell) -> str:
@@ -381,13 +394,29 @@ def _solve_chunk(study: Study, cells: list[Cell], keep_policy: bool = False,
     groups: dict[tuple, list[int]] = {}
     inputs: dict[int, tuple[Predator, tuple[Prey, ...]]] = {}
     n_prey = len(study.prey)
+    problems: dict[int, list] = {}
     for i, cell in enumerate(cells):
-        try:
-            inputs[i] = cell_inputs(study, cell)
-        except StudyError as err:
-            reason = "; ".join(str(p) for p in err.problems)
-            results[i] = _failed(describe_cell(cell), f"invalid inputs: {reason}",
-                                 study.predator.currency, n_prey)
+        predator, prey, found = _changed_inputs(study, cell)
+        if found:
+            problems[i] = found
+        else:
+            inputs[i] = predator, prey
+    # the checks of cell_inputs, in array operations; only cells that may have a problem
+    # go through check_values, which names each problem's location
+    checked = list(inputs)
+    if checked:
+        passed = problem_free([inputs[i] for i in checked])
+        for i in np.asarray(checked)[~passed].tolist():
+            found = _value_problems(cells[i], *inputs[i])
+            if found:
+                problems[i] = found
+                del inputs[i]
+    for i, found in problems.items():
+        reason = "; ".join(str(p) for p in found)
+        results[i] = _failed(describe_cell(cells[i]), f"invalid inputs: {reason}",
+                             study.predator.currency, n_prey)
+    for i, cell in enumerate(cells):
+        if i not in inputs:
             continue
         p, q = inputs[i]
         groups.setdefault((p.currency, p.energy_levels, p.breeding_level, len(q),
