@@ -33,8 +33,8 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from riskdiet.core.banded import band_layout, deinterleave, factor_solve, interleave
-from riskdiet.core.breeding_plan import ChoicePlan, choice_plan
-from riskdiet.core.choice import RELATIVE_TOLERANCE, better, default_sets, step_values
+from riskdiet.core.breeding_plan import ChoicePlan, Interpolated, choice_plan
+from riskdiet.core.choice import RELATIVE_TOLERANCE, better, choice_values, ramp
 from riskdiet.core.grid import (
     Grid,
     Split,
@@ -189,8 +189,7 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
     store = np.stack([values, comps], axis=-1)
     sets = SetKeys(grid.encounter_prob)
     # policies as keys of ranked sets, their attack chances prey first: (P, C, 2, m)
-    key = sets.key(np.ascontiguousarray(np.moveaxis(default_sets(grid, all_targets), -1, 0)
-                                        .astype(np.int8)))
+    key = sets.key(_default_ranks(grid, all_targets))
     prob = sets.attack_probabilities(key)
     out_priority = np.zeros((batch, 2, m, n_prey), dtype=np.int8)
     start = np.zeros(batch)
@@ -233,8 +232,9 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
         comps[active, :, 1:top] = u
         store[active, :, 1:top, 0] = v
         store[active, :, 1:top, 1] = u
+        reached = plan.interpolate(store, active)
         improved, improved_prob, switched, greedy_v, greedy_u = _improve(
-            plan, sets, sub, active, store, key, prob)
+            plan, sets, sub, active, reached, key, prob)
         done = ~switched.reshape(n_active, -1).any(axis=1) | bad | inexact
         if iteration == max_iterations:
             for c in active[~done]:
@@ -264,11 +264,12 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
                                    f"{RESIDUAL_LIMIT:.0e}")
             full, full_u = values[cells], comps[cells]
             alive = (1.0 - part.mortality)[..., :, None]
-            cap = (len(keep), n_prey, 2, top + 1)
-            _, _, d_attack = step_values(part, _take_targets(tg, keep), full,
-                                         np.broadcast_to(full[:, None], cap))
+            d_attack = plan.success_derivative(
+                Interpolated(reached.stay[keep], reached.won[:, keep], reached.hurt[:, keep]),
+                part.fatality, part.injury_chance, tg.survive_handling[keep])
+            slope = np.moveaxis(part.capture_slope, -1, 0)[..., None]
+            direct = alive * (prob[:, keep] * d_attack * slope).sum(0)
             ap = attack_prob[keep]
-            direct = alive * (ap * d_attack * part.capture_slope[..., :, None, :]).sum(-1)
             from_start = deinterleave(rows[keep, :, 0]).reshape(len(keep), -1)
             from_restart = deinterleave(rows[keep, :, 1]).reshape(len(keep), -1)
             start[cells] = full[np.arange(len(keep)), 0, part.start_level]
@@ -296,6 +297,30 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
                          tuple(failures))
 
 
+def _default_ranks(grid: Grid, tg: Targets) -> np.ndarray:
+    """:func:`riskdiet.core.choice.default_sets`, ranked pairwise, prey first (P, B, 2, m).
+
+    The same choice values on the ramp (:func:`riskdiet.core.choice.choice_values`),
+    ranked by :func:`riskdiet.core.ranked_sets.ranks_prey_first`, which equals the
+    lexicographic sort of :func:`riskdiet.core.choice.greedy_sets`.
+    """
+    v, u = ramp(grid)
+    batch = grid.cost.shape[0]
+    v = np.broadcast_to(v, (batch, 2, grid.top + 1))
+    u = np.broadcast_to(u, (batch, 2, grid.top + 1))
+    cap = (batch, grid.n_prey, 2, grid.top + 1)
+    cv = choice_values(grid, tg, v, u, np.broadcast_to(v[:, None], cap),
+                       np.broadcast_to(u[:, None], cap))
+
+    def prey_first(x):
+        return np.ascontiguousarray(np.moveaxis(x, -1, 0))
+
+    worth = better(cv.attack_v, cv.attack_u, cv.ignore_v[..., None], cv.ignore_u[..., None])
+    upper = cv.attack_v > 0.5
+    return ranks_prey_first(prey_first(worth), prey_first(upper),
+                            prey_first(np.where(upper, cv.attack_u, -cv.attack_v)))
+
+
 def _take_targets(tg: Targets, index: np.ndarray) -> Targets:
     """The cells ``index`` of batched targets (they do not depend on the policy)."""
     def part(s: Split) -> Split:
@@ -306,7 +331,7 @@ def _take_targets(tg: Targets, index: np.ndarray) -> Targets:
 
 
 def _improve(plan: ChoicePlan, sets: SetKeys, grid: Grid, active: np.ndarray,
-             store: np.ndarray, incumbent: np.ndarray, prob: np.ndarray
+             reached: Interpolated, incumbent: np.ndarray, prob: np.ndarray
              ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """:func:`riskdiet.core.choice.keep_unless_better`, from one sparse product.
 
@@ -328,10 +353,7 @@ def _improve(plan: ChoicePlan, sets: SetKeys, grid: Grid, active: np.ndarray,
     greedy_v, greedy_u : ndarray, shape (C, 2, m)
         T V and its complement: the one-step values of the greedy set.
     """
-    n_active = len(active)
-    gv, gu, av, au = plan.choice_values(store)
-    if n_active < store.shape[0]:
-        gv, gu, av, au = gv[active], gu[active], av[:, active], au[:, active]
+    gv, gu, av, au = plan.choice_values(reached, active)
     # choice.better(A, G), with the differences kept for the set values below
     dv = av - gv
     du = au - gu

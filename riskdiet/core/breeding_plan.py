@@ -37,50 +37,101 @@ _ROW = np.array([0, 0, 1, 1])
 
 
 @dataclass(frozen=True)
+class Interpolated:
+    """The values a step's outcomes reach, for the active cells of a batch.
+
+    Each array has a last axis of 2: the value V and its complement U.
+
+    Attributes
+    ----------
+    stay : ndarray, shape (C, 2, m, 2)
+        G = W_k(j - c_k; 1), the value of a day without attack.
+    won : ndarray, shape (P, C, 2, m, 2)
+        W_k(j + e_i - c_k (1 + h_i); 1 + h_i), the value after a capture.
+    hurt : ndarray, shape (P, C, 2, m, 2)
+        V(j - c_k - d_i, injured), the value after an injury.
+    """
+
+    stay: np.ndarray
+    won: np.ndarray
+    hurt: np.ndarray
+
+
+@dataclass(frozen=True)
 class ChoicePlan:
-    """Choice values of a batch of breeding cells as one sparse matrix of their values.
+    """Choice values of a batch of breeding cells from one sparse product.
 
     Attributes
     ----------
     matrix : scipy.sparse.csr_array
-        Rows: G (B, 2, m), then A_i without the constant (P, B, 2, m); columns:
-        the values by (cell, condition, level 0..J).
+        Rows: G (B, 2, m), the capture values (P, B, 2, m) and the injury values
+        (P, B, 2, m); columns: the values by (cell, condition, level 0..J).
+    won, hurt, stay : ndarray, shape (P, B, 2, 1)
+        Weights of A_i = won W + hurt V_hurt + stay G: (1 - f) s S_h,
+        (1 - f)(1 - s) q and (1 - f)(1 - s)(1 - q), S_h = (1 - mu_k)^h_i.
     u_constant : ndarray, shape (P, B, 2, 1)
         f_i + (1 - f_i) s_i^k (1 - (1 - mu_k)^h_i): added to A_i on U.
     """
 
     matrix: sp.csr_array
+    won: np.ndarray
+    hurt: np.ndarray
+    stay: np.ndarray
     u_constant: np.ndarray
 
-    def choice_values(self, values: np.ndarray
-                      ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-        """G and A_i on V and on U from stored values.
+    def interpolate(self, values: np.ndarray, cells: np.ndarray) -> Interpolated:
+        """The values every outcome reaches, for the cells ``cells``.
 
         Parameters
         ----------
         values : ndarray, shape (B, 2, J + 1, 2)
             V (last index 0) and U (last index 1) of every cell, levels 0..J.
+        """
+        n_prey, batch = self.won.shape[:2]
+        out = self.matrix @ values.reshape(-1, 2)
+        block = out.shape[0] // (1 + 2 * n_prey)
+        stay = out[:block].reshape(batch, 2, -1, 2)
+        won = out[block:block * (1 + n_prey)].reshape(n_prey, batch, 2, -1, 2)
+        hurt = out[block * (1 + n_prey):].reshape(n_prey, batch, 2, -1, 2)
+        if len(cells) < batch:
+            stay, won, hurt = stay[cells], won[:, cells], hurt[:, cells]
+        return Interpolated(stay, won, hurt)
+
+    def choice_values(self, at: Interpolated, cells: np.ndarray
+                      ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """G and A_i on V and on U (MODEL.md section 3).
 
         Returns
         -------
-        gv, gu : ndarray, shape (B, 2, m)
-        av, au : ndarray, shape (P, B, 2, m)
+        gv, gu : ndarray, shape (C, 2, m)
+        av, au : ndarray, shape (P, C, 2, m)
         """
-        n_prey, batch = self.u_constant.shape[:2]
-        out = self.matrix @ values.reshape(-1, 2)
-        states = out.shape[0] // (batch * (1 + n_prey))
-        ignore = out[:batch * states].reshape(batch, 2, -1, 2)
-        attack = out[batch * states:].reshape(n_prey, batch, 2, -1, 2)
-        return (ignore[..., 0], ignore[..., 1], attack[..., 0],
-                attack[..., 1] + self.u_constant)
+        gv, gu = at.stay[..., 0], at.stay[..., 1]
+        won, hurt, stay = self.won[:, cells], self.hurt[:, cells], self.stay[:, cells]
+        av = won * at.won[..., 0] + hurt * at.hurt[..., 0] + stay * gv
+        au = (won * at.won[..., 1] + hurt * at.hurt[..., 1] + stay * gu
+              + self.u_constant[:, cells])
+        return gv, gu, av, au
+
+    def success_derivative(self, at: Interpolated, fatality: np.ndarray, injury_chance: np.ndarray,
+                           survive_handling: np.ndarray) -> np.ndarray:
+        """dA_i/ds_i^k at fixed values, shape (P, C, 2, m): (1 - f)(S_h W - q V_hurt - (1 - q) G).
+
+        ``fatality`` and ``injury_chance`` have shape (C, P), ``survive_handling`` (C, 2, P).
+        """
+        f = fatality.T[:, :, None, None]
+        q = injury_chance.T[:, :, None, None]
+        sh = np.moveaxis(survive_handling, -1, 0)[..., None]
+        failed = q * at.hurt[..., 0] + (1.0 - q) * at.stay[..., 0]
+        return (1.0 - f) * (sh * at.won[..., 0] - failed)
 
 
 def choice_plan(grid: Grid, tg: Targets) -> ChoicePlan:
-    """The choice values of MODEL.md section 3 (breeding) as a matrix of the values.
+    """The outcomes of MODEL.md section 3 (breeding) as a matrix of the values.
 
-    The coefficients are those of :func:`riskdiet.core.choice.step_values`
-    multiplied out: A_i = (1 - f) s S_h W(capture) + (1 - f)(1 - s) q V(injury)
-    + (1 - f)(1 - s)(1 - q) G, so values agree with it to rounding.
+    G, the capture value W and the injury value are interpolations of the
+    values (:func:`riskdiet.core.choice.step_values`), so they agree with it to
+    rounding; A_i is then (1 - f)[s S_h W + (1 - s)(q V_hurt + (1 - q) G)].
 
     Parameters
     ----------
@@ -92,6 +143,19 @@ def choice_plan(grid: Grid, tg: Targets) -> ChoicePlan:
     batch, n_prey, m = grid.cost.shape[0], grid.n_prey, grid.n_living
     levels = grid.top + 1
     cell = np.arange(batch).reshape(batch, 1, 1, 1)
+    n_g, n_p = batch * 2 * m, n_prey * batch * 2 * m
+    nnz = 4 * n_g + 4 * n_p + 2 * n_p
+    index = np.int32 if nnz < 2 ** 31 and batch * 2 * levels < 2 ** 31 else np.int64
+    cols = np.empty(nnz, dtype=index)
+    vals = np.empty(nnz)
+
+    def fill(start, rows, col, val):
+        """Write a block of rows with a fixed number of entries; returns its end."""
+        width = val.shape[-1]
+        stop = start + rows * width
+        cols[start:stop].reshape(*val.shape)[...] = col
+        vals[start:stop].reshape(*val.shape)[...] = val
+        return stop
 
     def interpolation(split_low, split_weight, healthy_share, cell_b):
         """Columns and weights of an interpolation on the healthy and injured rows."""
@@ -104,36 +168,24 @@ def choice_plan(grid: Grid, tg: Targets) -> ChoicePlan:
 
     r = np.asarray(tg.recover_stay, dtype=float).reshape(batch, 1, 1)
     stay_share = np.where(np.arange(2)[None, :, None] == 0, 1.0, r)        # (B, 2, 1)
-    stay_col, stay_val = interpolation(tg.stay.low, tg.stay.weight, stay_share, cell)
+    col, val = interpolation(tg.stay.low, tg.stay.weight, stay_share, cell)
+    end = fill(0, n_g, col, val)
     cap_share = np.where(np.arange(2)[None, :, None, None] == 0, 1.0,
                          tg.recover_capture[:, None, None, :])             # (B, 2, 1, P)
-    cap_col, cap_val = interpolation(tg.capture.low, tg.capture.weight, cap_share,
-                                     cell[..., None])
+    col, val = interpolation(tg.capture.low, tg.capture.weight, cap_share, cell[..., None])
+    end = fill(end, n_p, np.moveaxis(col, 3, 0), np.moveaxis(val, 3, 0))
     inj_col = ((cell[..., None] * 2 + 1) * levels + tg.injury.low[..., None] + _UPPER[:2])
     inj_w = tg.injury.weight[..., None]
     inj_val = np.where(_UPPER[:2] == 1, inj_w, 1.0 - inj_w)
+    fill(end, n_p, np.moveaxis(inj_col, 3, 0), np.moveaxis(inj_val, 3, 0))
+    indptr = np.concatenate([np.arange(0, 4 * (n_g + n_p), 4),
+                             4 * (n_g + n_p) + np.arange(0, 2 * n_p + 1, 2)]).astype(index)
+    matrix = sp.csr_array((vals, cols, indptr), shape=(n_g + 2 * n_p, batch * 2 * levels))
 
-    f = grid.fatality[:, None, None, :, None]
-    s = grid.capture[:, :, None, :, None]
-    q = grid.injury_chance[:, None, None, :, None]
-    sh = tg.survive_handling[:, :, None, :, None]
-    shape = (batch, 2, m, n_prey)
-    a_col = np.concatenate([np.broadcast_to(cap_col, (*shape, 4)),
-                            np.broadcast_to(inj_col, (*shape, 2)),
-                            np.broadcast_to(stay_col[:, :, :, None], (*shape, 4))], axis=-1)
-    a_val = np.concatenate([np.broadcast_to((1 - f) * s * sh * cap_val, (*shape, 4)),
-                            np.broadcast_to((1 - f) * (1 - s) * q * inj_val, (*shape, 2)),
-                            np.broadcast_to((1 - f) * (1 - s) * (1 - q)
-                                            * stay_val[:, :, :, None], (*shape, 4))], axis=-1)
-    n_g, n_a = batch * 2 * m, n_prey * batch * 2 * m
-    indptr = np.concatenate([np.arange(0, 4 * n_g, 4), 4 * n_g + np.arange(0, 10 * n_a + 1, 10)])
-    cols = np.concatenate([np.broadcast_to(stay_col, (batch, 2, m, 4)).reshape(-1),
-                           np.moveaxis(a_col, 3, 0).reshape(-1)])
-    vals = np.concatenate([np.broadcast_to(stay_val, (batch, 2, m, 4)).reshape(-1),
-                           np.moveaxis(a_val, 3, 0).reshape(-1)])
-    index = np.int32 if indptr[-1] < 2 ** 31 and batch * 2 * levels < 2 ** 31 else np.int64
-    matrix = sp.csr_array((vals, cols.astype(index), indptr.astype(index)),
-                          shape=(n_g + n_a, batch * 2 * levels))
-    f4, s4 = grid.fatality.T[:, :, None, None], np.moveaxis(grid.capture, -1, 0)[..., None]
-    u_constant = f4 + (1.0 - f4) * s4 * np.moveaxis(tg.die_handling, -1, 0)[..., None]
-    return ChoicePlan(matrix, u_constant)
+    f = grid.fatality.T[:, :, None, None]                                 # (P, B, 1, 1)
+    s = np.moveaxis(grid.capture, -1, 0)[..., None]                       # (P, B, 2, 1)
+    q = grid.injury_chance.T[:, :, None, None]
+    sh = np.moveaxis(tg.survive_handling, -1, 0)[..., None]
+    u_constant = f + (1.0 - f) * s * np.moveaxis(tg.die_handling, -1, 0)[..., None]
+    return ChoicePlan(matrix, (1 - f) * s * sh, (1 - f) * (1 - s) * q,
+                      (1 - f) * (1 - s) * (1 - q), u_constant)

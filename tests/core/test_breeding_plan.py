@@ -39,9 +39,10 @@ def _breeding_grids(levels=24):
 
 
 def test_sparse_choice_values_equal_the_step_values():
-    """G and A_i on V and on U from the plan's one sparse product equal the
-    single solver's choice values (riskdiet.core.choice.choice_values, MODEL.md
-    section 3) on arbitrary values and complements, to rounding."""
+    """G and A_i on V and on U, and dA_i/ds_i, from the plan's one sparse
+    product equal the single solver's choice values
+    (riskdiet.core.choice.choice_values, MODEL.md section 3) on arbitrary values
+    and complements, to rounding, for all cells and for a subset of them."""
     grid = stack_grids(_breeding_grids())
     batch, top = grid.cost.shape[0], grid.top
     tg = targets(grid)
@@ -49,14 +50,20 @@ def test_sparse_choice_values_equal_the_step_values():
     v = rng.random((batch, 2, top + 1))
     u = rng.random((batch, 2, top + 1))
     plan = choice_plan(grid, tg)
-    gv, gu, av, au = plan.choice_values(np.stack([v, u], axis=-1))
     cap = (batch, grid.n_prey, 2, top + 1)
     cv = choice_values(grid, tg, v, u, np.broadcast_to(v[:, None], cap),
                        np.broadcast_to(u[:, None], cap))
-    np.testing.assert_allclose(gv, cv.ignore_v, rtol=1e-13)
-    np.testing.assert_allclose(gu, cv.ignore_u, rtol=1e-13)
-    np.testing.assert_allclose(np.moveaxis(av, 0, -1), cv.attack_v, rtol=1e-13)
-    np.testing.assert_allclose(np.moveaxis(au, 0, -1), cv.attack_u, rtol=1e-13)
+    for cells in (np.arange(batch), np.array([2, 0])):
+        at = plan.interpolate(np.stack([v, u], axis=-1), cells)
+        gv, gu, av, au = plan.choice_values(at, cells)
+        np.testing.assert_allclose(gv, cv.ignore_v[cells], rtol=1e-13)
+        np.testing.assert_allclose(gu, cv.ignore_u[cells], rtol=1e-13)
+        np.testing.assert_allclose(np.moveaxis(av, 0, -1), cv.attack_v[cells], rtol=1e-13)
+        np.testing.assert_allclose(np.moveaxis(au, 0, -1), cv.attack_u[cells], rtol=1e-13)
+        d = plan.success_derivative(at, grid.fatality[cells], grid.injury_chance[cells],
+                                    tg.survive_handling[cells])
+        np.testing.assert_allclose(np.moveaxis(d, 0, -1), cv.d_attack[cells], rtol=1e-12,
+                                   atol=1e-15)
 
 
 def test_tabled_attack_chances_of_chosen_cells():
