@@ -13,6 +13,14 @@ policy-iteration round.
 The equations are those of :mod:`riskdiet.core.solver` and :mod:`riskdiet.core.chain`
 (MODEL.md sections 3-5), written once in :mod:`riskdiet.core.grid` and
 :func:`riskdiet.core.solver.step_values`; a batch cell equals a single solve.
+Only the improvement step is arranged for speed: the values every outcome
+reaches are one sparse product with V and U, the matrix built once per
+sub-batch (:mod:`riskdiet.core.breeding_plan`); the greedy set is ranked by
+pairwise comparisons and its attack chances looked up in a per-cell table of
+every ranked set (:mod:`riskdiet.core.ranked_sets`). That changes the rounding
+of the choice values (about 1e-16 relative), never the comparison rule of
+MODEL.md section 3; the policies, hence the evaluated values, are the single
+solver's.
 
 References
 ----------
