@@ -27,9 +27,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from riskdiet.analysis.batch_checks import problem_free
 from riskdiet.core.batch import SUB_BATCH, solve_breeding_batch
 from riskdiet.core.choice import one_step_value, step_values
-from riskdiet.core.classic import classic_prey_model
+from riskdiet.core.classic_batch import rate_maximizing_diets
 from riskdiet.core.cohort import cohort_batch, median_day
 from riskdiet.core.grid import (
     attack_probabilities,
@@ -199,6 +200,16 @@ def cell_inputs(study: Study, cell: Cell) -> tuple[Predator, tuple[Prey, ...]]:
         When a value, or a scenario change applied to a drawn value, leaves its
         bounds; the problems name the cell.
     """
+    predator, prey, problems = _changed_inputs(study, cell)
+    if not problems:
+        problems = _value_problems(cell, predator, prey)
+    if problems:
+        raise StudyError(problems)
+    return predator, prey
+
+
+def _changed_inputs(study: Study, cell: Cell) -> tuple[Predator, tuple[Prey, ...], list]:
+    """The cell's inputs, and the problems of applying the scenario's changes to them."""
     predator, prey = study.predator, study.baseline_prey
     for ch in cell.changes:
         if ch.stage == BASELINE_STAGE:
@@ -207,13 +218,15 @@ def cell_inputs(study: Study, cell: Cell) -> tuple[Predator, tuple[Prey, ...]]:
     for ch in cell.changes:
         if ch.stage == FINAL_STAGE:
             predator, prey = set_input(predator, prey, ch.prey, ch.field, ch.value)
-    if not problems:
-        problems, _ = check_values(predator, prey,
-                                   lambda f: f"{describe_cell(cell)}: predator.{f}",
-                                   lambda i, f: f"{describe_cell(cell)}: {prey[i].name}.{f}")
-    if problems:
-        raise StudyError(problems)
-    return predator, prey
+    return predator, prey, problems
+
+
+def _value_problems(cell: Cell, predator: Predator, prey: tuple[Prey, ...]) -> list:
+    """check_values's problems of a cell's inputs, located in the cell."""
+    problems, _ = check_values(predator, prey,
+                               lambda f: f"{describe_cell(cell)}: predator.{f}",
+                               lambda i, f: f"{describe_cell(cell)}: {prey[i].name}.{f}")
+    return problems
 
 
 def describe_cell(cell: Cell) -> str:
@@ -297,13 +310,13 @@ def _failed(label: str, reason: str, currency: str, n_prey: int) -> CellResult:
                       np.zeros(n_prey, bool), np.zeros(n_prey, bool))
 
 
-def _classic_mask(predator: Predator, prey: tuple[Prey, ...], success: np.ndarray) -> np.ndarray:
-    classic = classic_prey_model(
-        [p.name for p in prey], [p.encounters(predator) for p in prey],
-        [p.energy_mj for p in prey], [p.handling_days for p in prey], success,
-        [p.fatality_chance for p in prey], predator.background_mortality,
-        predator.effective_daily_cost_mj)
-    return np.array([p.name in classic.rate_maximizing_diet for p in prey])
+def _classic_masks(inputs: list[tuple[Predator, tuple[Prey, ...]]], success: np.ndarray
+                   ) -> np.ndarray:
+    """Charnov's rate-maximising diet of every cell (that of
+    :func:`riskdiet.core.classic.classic_prey_model`), shape (B, P)."""
+    columns = np.array([[(p.encounters(predator), p.energy_mj, p.handling_days) for p in prey]
+                        for predator, prey in inputs], dtype=float)
+    return rate_maximizing_diets(columns[..., 0], columns[..., 1], columns[..., 2], success)
 
 
 def _solve_group(cells: list[Cell], inputs: list[tuple[Predator, tuple[Prey, ...]]],
@@ -349,8 +362,9 @@ def _solve_group(cells: list[Cell], inputs: list[tuple[Predator, tuple[Prey, ...
         if gradient is not None:
             extra = [None if failures[b] else _season_extra(inputs[b], gradient)
                      for b in range(len(cells))]
+    classic = _classic_masks(inputs, grid.capture[:, 0])
     out = []
-    for b, (predator, prey) in enumerate(inputs):
+    for b, (predator, _) in enumerate(inputs):
         if failures[b] is not None:
             out.append(_failed(labels[b], failures[b], currency, n_prey))
             continue
@@ -366,7 +380,7 @@ def _solve_group(cells: list[Cell], inputs: list[tuple[Predator, tuple[Prey, ...
             cohort_breeding_events=None if breeding is None else animals * float(breeding[b]),
             cohort_median_survival_days=median_day(alive[b]),
             attacked_at_start=np.asarray(priority[b][0, start] >= 0),
-            classic_diet=_classic_mask(predator, prey, grid.capture[b, 0]),
+            classic_diet=classic[b],
             residual=float(residual[b]), marginal_extra=extra[b],
             policy=np.asarray(priority[b], dtype=np.int8) if keep_policy else None))
     return out
@@ -380,13 +394,29 @@ def _solve_chunk(study: Study, cells: list[Cell], keep_policy: bool = False,
     groups: dict[tuple, list[int]] = {}
     inputs: dict[int, tuple[Predator, tuple[Prey, ...]]] = {}
     n_prey = len(study.prey)
+    problems: dict[int, list] = {}
     for i, cell in enumerate(cells):
-        try:
-            inputs[i] = cell_inputs(study, cell)
-        except StudyError as err:
-            reason = "; ".join(str(p) for p in err.problems)
-            results[i] = _failed(describe_cell(cell), f"invalid inputs: {reason}",
-                                 study.predator.currency, n_prey)
+        predator, prey, found = _changed_inputs(study, cell)
+        if found:
+            problems[i] = found
+        else:
+            inputs[i] = predator, prey
+    # the checks of cell_inputs, in array operations; only cells that may have a problem
+    # go through check_values, which names each problem's location
+    checked = list(inputs)
+    if checked:
+        passed = problem_free([inputs[i] for i in checked])
+        for i in np.asarray(checked)[~passed].tolist():
+            found = _value_problems(cells[i], *inputs[i])
+            if found:
+                problems[i] = found
+                del inputs[i]
+    for i, found in problems.items():
+        reason = "; ".join(str(p) for p in found)
+        results[i] = _failed(describe_cell(cells[i]), f"invalid inputs: {reason}",
+                             study.predator.currency, n_prey)
+    for i, cell in enumerate(cells):
+        if i not in inputs:
             continue
         p, q = inputs[i]
         groups.setdefault((p.currency, p.energy_levels, p.breeding_level, len(q),

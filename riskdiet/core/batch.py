@@ -13,6 +13,14 @@ policy-iteration round.
 The equations are those of :mod:`riskdiet.core.solver` and :mod:`riskdiet.core.chain`
 (MODEL.md sections 3-5), written once in :mod:`riskdiet.core.grid` and
 :func:`riskdiet.core.solver.step_values`; a batch cell equals a single solve.
+Only the improvement step is arranged for speed: the values every outcome
+reaches are one sparse product with V and U, the matrix built once per
+sub-batch (:mod:`riskdiet.core.breeding_plan`); the greedy set is ranked by
+pairwise comparisons and its attack chances looked up in a per-cell table of
+every ranked set (:mod:`riskdiet.core.ranked_sets`). That changes the rounding
+of the choice values (about 1e-16 relative), never the comparison rule of
+MODEL.md section 3; the policies, hence the evaluated values, are the single
+solver's.
 
 References
 ----------
@@ -33,25 +41,19 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from riskdiet.core.banded import band_layout, deinterleave, factor_solve, interleave
-from riskdiet.core.choice import (
-    better,
-    choice_values,
-    default_sets,
-    greedy_sets,
-    one_step_value,
-    set_values,
-)
+from riskdiet.core.breeding_plan import ChoicePlan, Interpolated, choice_plan
+from riskdiet.core.choice import RELATIVE_TOLERANCE, better, choice_values, ramp
 from riskdiet.core.grid import (
     Grid,
     Split,
     Targets,
-    attack_probabilities,
     death_chances,
     kill_probabilities,
     outcomes,
     take_cells,
     targets,
 )
+from riskdiet.core.ranked_sets import SetKeys, ranks_prey_first
 from riskdiet.core.solver import MAX_POLICY_ITERATIONS, RESIDUAL_LIMIT, SINGULAR, SUM_LIMIT
 from riskdiet.errors import RiskdietError
 
@@ -190,8 +192,13 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
     comps = np.ones((batch, 2, top + 1))
     comps[..., top] = 0.0
     all_targets = targets(grid)
-    priority = default_sets(grid, all_targets)
-    attack_prob = attack_probabilities(grid.encounter_prob, priority)
+    plan = choice_plan(grid, all_targets)
+    # V and U side by side, the vector pair the plan multiplies
+    store = np.stack([values, comps], axis=-1)
+    sets = SetKeys(grid.encounter_prob)
+    # policies as keys of ranked sets, their attack chances prey first: (P, C, 2, m)
+    key = sets.key(_default_ranks(grid, all_targets))
+    prob = sets.attack_probabilities(key)
     out_priority = np.zeros((batch, 2, m, n_prey), dtype=np.int8)
     start = np.zeros(batch)
     marginal = np.zeros(batch)
@@ -203,8 +210,10 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
     active = np.arange(batch)
     layout = None
     for iteration in range(1, max_iterations + 1):
+        n_active = len(active)
         sub = take_cells(grid, active)
         tg = _take_targets(all_targets, active)
+        attack_prob = np.ascontiguousarray(np.moveaxis(prob, 0, -1))
         parts = outcomes(sub, tg, attack_prob)
         if layout is None:  # where the entries go does not depend on the policy
             layout = band_layout(sub, parts)
@@ -212,28 +221,29 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
         rhs = np.stack([layout.breed_chance(parts, active), interleave(death)], axis=-1)
         # rows of (I - P)^-1 for (j0, healthy) and (j_rho, healthy), level-major; they are
         # needed only once the policy has settled, but cost little while the factors are at hand
-        unit = np.zeros((len(active), 2 * m, 2))
-        unit[np.arange(len(active)), 2 * (sub.start_level - 1), 0] = 1.0
-        unit[np.arange(len(active)), 2 * (sub.after_breeding_level - 1), 1] = 1.0
+        unit = np.zeros((n_active, 2 * m, 2))
+        unit[np.arange(n_active), 2 * (sub.start_level - 1), 0] = 1.0
+        unit[np.arange(n_active), 2 * (sub.after_breeding_level - 1), 1] = 1.0
         with np.errstate(all="ignore"):
             sol, rows, info = factor_solve(layout, layout.entries(parts, active), rhs, unit,
                                            active)
-        v = deinterleave(sol[..., 0]).reshape(len(active), -1)
-        u = deinterleave(sol[..., 1]).reshape(len(active), -1)
+        v = deinterleave(sol[..., 0]).reshape(n_active, -1)
+        u = deinterleave(sol[..., 1]).reshape(n_active, -1)
         # an exactly zero pivot (info > 0) leaves infinities or NaN; both say singular
         bad = (info > 0) | ~(np.isfinite(v).all(-1) & np.isfinite(u).all(-1))
         worst = np.where(bad, np.inf, np.abs(v + u - 1.0).max(-1, initial=0.0))
         inexact = ~bad & ((worst > SUM_LIMIT) | (v.min(-1, initial=0.0) < -SUM_LIMIT)
                           | (u.min(-1, initial=0.0) < -SUM_LIMIT))
-        values[active, :, 1:top] = np.where(bad[:, None], 0.0, v).reshape(-1, 2, m)
-        comps[active, :, 1:top] = np.where(bad[:, None], 1.0, u).reshape(-1, 2, m)
-        full, full_u = values[active], comps[active]
-        cap = (len(active), n_prey, 2, top + 1)
-        cv = choice_values(sub, tg, full, full_u, np.broadcast_to(full[:, None], cap),
-                           np.broadcast_to(full_u[:, None], cap))
-        improved, improved_prob, switched, greedy_v, greedy_u = _improve(sub, cv, priority,
-                                                                         attack_prob)
-        done = ~switched.reshape(len(active), -1).any(axis=1) | bad | inexact
+        v = np.where(bad[:, None], 0.0, v).reshape(-1, 2, m)
+        u = np.where(bad[:, None], 1.0, u).reshape(-1, 2, m)
+        values[active, :, 1:top] = v
+        comps[active, :, 1:top] = u
+        store[active, :, 1:top, 0] = v
+        store[active, :, 1:top, 1] = u
+        reached = plan.interpolate(store, active)
+        improved, improved_prob, switched, greedy_v, greedy_u = _improve(
+            plan, sets, sub, active, reached, key, prob)
+        done = ~switched.reshape(n_active, -1).any(axis=1) | bad | inexact
         if iteration == max_iterations:
             for c in active[~done]:
                 failures[c] = f"policy iteration did not settle within {max_iterations} rounds"
@@ -249,33 +259,39 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
             cells = active[done]
             keep = np.flatnonzero(done)
             rounds[cells] = iteration
-            out_priority[cells] = priority[keep]
+            ranks = sets.ranks(key[..., keep, :, :])
+            out_priority[cells] = ranks
             part = take_cells(sub, keep)
-            res = _relative_residual(greedy_v[keep], greedy_u[keep], full[keep][..., 1:top],
-                                     full_u[keep][..., 1:top]).reshape(len(keep), -1).max(axis=1)
+            res = _relative_residual(greedy_v[keep], greedy_u[keep], v[keep],
+                                     u[keep]).reshape(len(keep), -1).max(axis=1)
             residual[cells] = res
             for c, r in zip(cells, res, strict=True):
                 if failures[c] is None and not (np.isfinite(r) and r <= RESIDUAL_LIMIT):
                     failures[c] = (f"the optimality check failed: the Bellman residual "
                                    f"relative to the values is {r:.1e}, above the accepted "
                                    f"{RESIDUAL_LIMIT:.0e}")
+            full, full_u = values[cells], comps[cells]
             alive = (1.0 - part.mortality)[..., :, None]
+            d_attack = plan.success_derivative(
+                Interpolated(reached.stay[keep], reached.won[:, keep], reached.hurt[:, keep]),
+                part.fatality, part.injury_chance, tg.survive_handling[keep])
+            slope = np.moveaxis(part.capture_slope, -1, 0)[..., None]
+            direct = alive * (prob[:, keep] * d_attack * slope).sum(0)
             ap = attack_prob[keep]
-            direct = alive * (ap * cv.d_attack[keep]
-                              * part.capture_slope[..., :, None, :]).sum(-1)
             from_start = deinterleave(rows[keep, :, 0]).reshape(len(keep), -1)
             from_restart = deinterleave(rows[keep, :, 1]).reshape(len(keep), -1)
-            start[cells] = full[keep, 0, part.start_level]
+            start[cells] = full[np.arange(len(keep)), 0, part.start_level]
             marginal[cells] = (from_start * direct.reshape(len(keep), -1)).sum(-1)
             if extra_direct is not None:
-                d_extra = extra_direct(cells, full[keep], priority[keep])
+                d_extra = extra_direct(cells, full, ranks)
                 extra[cells] = (from_start * d_extra.reshape(len(keep), -1)).sum(-1)
             with np.errstate(all="ignore"):
                 kills[cells] = _kill_rates(part, ap, from_start, from_restart,
-                                           full[keep, 0, part.start_level],
-                                           full_u[keep, 0, part.after_breeding_level])
-        priority = improved[~done]
-        attack_prob = improved_prob[~done]
+                                           full[np.arange(len(keep)), 0, part.start_level],
+                                           full_u[np.arange(len(keep)), 0,
+                                                  part.after_breeding_level])
+        key = improved[..., ~done, :, :]
+        prob = improved_prob[:, ~done]
         active = active[~done]
         if active.size == 0:
             break
@@ -289,6 +305,30 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
                          tuple(failures))
 
 
+def _default_ranks(grid: Grid, tg: Targets) -> np.ndarray:
+    """:func:`riskdiet.core.choice.default_sets`, ranked pairwise, prey first (P, B, 2, m).
+
+    The same choice values on the ramp (:func:`riskdiet.core.choice.choice_values`),
+    ranked by :func:`riskdiet.core.ranked_sets.ranks_prey_first`, which equals the
+    lexicographic sort of :func:`riskdiet.core.choice.greedy_sets`.
+    """
+    v, u = ramp(grid)
+    batch = grid.cost.shape[0]
+    v = np.broadcast_to(v, (batch, 2, grid.top + 1))
+    u = np.broadcast_to(u, (batch, 2, grid.top + 1))
+    cap = (batch, grid.n_prey, 2, grid.top + 1)
+    cv = choice_values(grid, tg, v, u, np.broadcast_to(v[:, None], cap),
+                       np.broadcast_to(u[:, None], cap))
+
+    def prey_first(x):
+        return np.ascontiguousarray(np.moveaxis(x, -1, 0))
+
+    worth = better(cv.attack_v, cv.attack_u, cv.ignore_v[..., None], cv.ignore_u[..., None])
+    upper = cv.attack_v > 0.5
+    return ranks_prey_first(prey_first(worth), prey_first(upper),
+                            prey_first(np.where(upper, cv.attack_u, -cv.attack_v)))
+
+
 def _take_targets(tg: Targets, index: np.ndarray) -> Targets:
     """The cells ``index`` of batched targets (they do not depend on the policy)."""
     def part(s: Split) -> Split:
@@ -298,35 +338,48 @@ def _take_targets(tg: Targets, index: np.ndarray) -> Targets:
                    tg.survive_handling[index], tg.die_handling[index])
 
 
-def _improve(grid: Grid, cv, incumbent: np.ndarray, attack_prob: np.ndarray
-             ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """:func:`riskdiet.core.choice.keep_unless_better`, reusing what the round already has.
+def _improve(plan: ChoicePlan, sets: SetKeys, grid: Grid, active: np.ndarray,
+             reached: Interpolated, incumbent: np.ndarray, prob: np.ndarray
+             ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """:func:`riskdiet.core.choice.keep_unless_better`, from one sparse product.
 
-    The incumbent's attack chances are those its outcomes were built from, and
-    the greedy set's one-step values are also T V of the Bellman residual, so
-    neither is computed twice.
+    The choice values of the active cells are the plan's rows times the stored
+    values (:mod:`riskdiet.core.breeding_plan`); the greedy set is ranked
+    pairwise and its attack chances looked up (:mod:`riskdiet.core.ranked_sets`);
+    the comparisons are those of :func:`riskdiet.core.choice.greedy_sets` and
+    :func:`riskdiet.core.choice.better`. The incumbent's attack chances are those
+    its outcomes were built from, and the greedy set's one-step values are also
+    T V of the Bellman residual, so neither is computed twice.
 
     Returns
     -------
-    policy : ndarray of int, shape (B, 2, m, P)
-        As :func:`riskdiet.core.choice.keep_unless_better`.
-    attack_prob : ndarray, shape (B, 2, m, P)
-        The policy's attack chances: each state's are those of its set
-        (:func:`riskdiet.core.grid.attack_probabilities` works state by state).
-    switched : ndarray of bool, shape (B, 2, m)
-    greedy_v, greedy_u : ndarray, shape (B, 2, m)
+    policy : ndarray of int
+        Keys of the sets kept (:class:`riskdiet.core.ranked_sets.SetKeys`).
+    attack_prob : ndarray, shape (P, C, 2, m)
+        The policy's attack chances.
+    switched : ndarray of bool, shape (C, 2, m)
+    greedy_v, greedy_u : ndarray, shape (C, 2, m)
         T V and its complement: the one-step values of the greedy set.
     """
-    greedy = greedy_sets(cv)
-    gv, gu, greedy_prob = set_values(grid, cv, greedy)
+    gv, gu, av, au = plan.choice_values(reached, active)
+    # choice.better(A, G), with the differences kept for the set values below
+    dv = av - gv
+    du = au - gu
+    upper = av > 0.5
+    worth = np.where(upper & (gv > 0.5),
+                     -du > RELATIVE_TOLERANCE * np.maximum(au, gu),
+                     dv > RELATIVE_TOLERANCE * np.maximum(av, gv))
+    greedy = sets.key(ranks_prey_first(worth, upper, np.where(upper, au, -av)))
+    p_greedy = sets.attack_probabilities(greedy, active)
     mu = grid.mortality[..., :, None]
-    iv = one_step_value(grid, cv.ignore_v, cv.attack_v, attack_prob)
-    iu = mu + (1.0 - mu) * (cv.ignore_u
-                            + (attack_prob * (cv.attack_u - cv.ignore_u[..., None])).sum(-1))
-    switched = better(gv, gu, iv, iu) & (greedy != incumbent).any(-1)
-    keep = switched[..., None]
-    return (np.where(keep, greedy, incumbent), np.where(keep, greedy_prob, attack_prob),
-            switched, gv, gu)
+    alive = 1.0 - mu
+    g_v = alive * (gv + (p_greedy * dv).sum(0))
+    g_u = mu + alive * (gu + (p_greedy * du).sum(0))
+    i_v = alive * (gv + (prob * dv).sum(0))
+    i_u = mu + alive * (gu + (prob * du).sum(0))
+    switched = better(g_v, g_u, i_v, i_u) & sets.differ(greedy, incumbent)
+    return (np.where(switched, greedy, incumbent), np.where(switched, p_greedy, prob),
+            switched, g_v, g_u)
 
 
 def _relative_residual(tv: np.ndarray, tu: np.ndarray, v: np.ndarray, u: np.ndarray

@@ -132,3 +132,42 @@ def set_table(n_prey: int) -> SetTable | None:
     weights = (n_prey + 1) ** np.arange(n_prey)
     lookup[((ranks.astype(np.intp) + 1) * weights).sum(-1)] = np.arange(len(rows))
     return SetTable(ranks, lookup)
+
+
+class SetKeys:
+    """Ranked sets of a batch of cells as keys: table codes (few prey) or the ranks themselves.
+
+    Ranks and attack probabilities have prey on the first axis: (P, C, 2, m),
+    for the cells ``cells`` of the batch (all of them when None).
+    """
+
+    def __init__(self, encounter_prob: np.ndarray) -> None:
+        self.p = encounter_prob
+        self.table: SetTable | None = set_table(encounter_prob.shape[-1])
+        if self.table is not None:
+            batch, size = encounter_prob.shape[0], self.table.size
+            probs = self.table.probabilities(encounter_prob)                # (B, S, P)
+            self.probs = np.ascontiguousarray(probs.reshape(batch * size, -1).T)
+
+    def key(self, ranks: np.ndarray) -> np.ndarray:
+        """Keys of ranked sets given as ranks with prey first (int8)."""
+        return ranks if self.table is None else self.table.codes(ranks)
+
+    def attack_probabilities(self, key: np.ndarray, cells: np.ndarray | None = None
+                             ) -> np.ndarray:
+        """P_i of each state's set, prey first: (P, C, 2, m)."""
+        if cells is None:
+            cells = np.arange(self.p.shape[0])
+        if self.table is None:
+            p = self.p[cells]
+            return np.moveaxis(attack_probabilities(p, np.moveaxis(key, 0, -1)), -1, 0)
+        offset = (cells * self.table.size)[:, None, None]
+        return self.probs.take(key + offset, axis=1)
+
+    def differ(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        """Whether two sets differ, state by state."""
+        return (a != b).any(0) if self.table is None else a != b
+
+    def ranks(self, key: np.ndarray) -> np.ndarray:
+        """Ranks with prey last, shape (C, 2, m, P)."""
+        return np.moveaxis(key, 0, -1) if self.table is None else self.table.ranks[key]

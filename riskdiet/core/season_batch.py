@@ -41,8 +41,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from riskdiet.core.choice import RELATIVE_TOLERANCE, better, default_sets
-from riskdiet.core.grid import Grid, Targets, attack_probabilities, take_cells, targets
-from riskdiet.core.ranked_sets import SetTable, ranks_prey_first, set_table
+from riskdiet.core.grid import Grid, Targets, take_cells, targets
+from riskdiet.core.ranked_sets import SetKeys, ranks_prey_first
 from riskdiet.core.season_plan import QUANTITIES, S, U, V, backward_step, forward_moves
 from riskdiet.core.solver import SUM_LIMIT
 from riskdiet.errors import RiskdietError
@@ -115,41 +115,6 @@ def solve_season_batch(grid: Grid, chunk: int = CHUNK) -> SeasonBatch:
                        tuple(f for p in parts for f in p.failures))
 
 
-class _Policies:
-    """Ranked sets of a batch as keys: table codes (few prey) or the ranks themselves.
-
-    Ranks and attack probabilities have prey on the first axis: (P, B, 2, m).
-    """
-
-    def __init__(self, grid: Grid) -> None:
-        self.table: SetTable | None = set_table(grid.n_prey)
-        self.p = grid.encounter_prob
-        batch = grid.cost.shape[0]
-        if self.table is not None:
-            size = self.table.size
-            probs = self.table.probabilities(self.p)                       # (B, S, P)
-            self.probs = np.ascontiguousarray(probs.reshape(batch * size, -1).T)
-            self.offset = (np.arange(batch) * size)[:, None, None]
-
-    def key(self, ranks: np.ndarray) -> np.ndarray:
-        return ranks if self.table is None else self.table.codes(ranks)
-
-    def attack_probabilities(self, key: np.ndarray) -> np.ndarray:
-        if self.table is None:
-            return np.moveaxis(attack_probabilities(self.p, np.moveaxis(key, 0, -1)), -1, 0)
-        return self.probs.take(key + self.offset, axis=1)
-
-    def differ(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-        return (a != b).any(0) if self.table is None else a != b
-
-    def choose(self, mask: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-        return np.where(mask, a, b)
-
-    def ranks(self, key: np.ndarray) -> np.ndarray:
-        """Ranks with prey last, shape (B, 2, m, P)."""
-        return np.moveaxis(key, 0, -1) if self.table is None else self.table.ranks[key]
-
-
 def _solve_chunk(grid: Grid) -> SeasonBatch:
     batch = grid.cost.shape[0]
     days, n, m = grid.season_days, grid.n, grid.n_living
@@ -171,7 +136,7 @@ def _solve_chunk(grid: Grid) -> SeasonBatch:
     mu = grid.mortality[..., :, None]
     alive = 1.0 - mu
 
-    policies = _Policies(grid)
+    policies = SetKeys(grid.encounter_prob)
     default = policies.key(np.ascontiguousarray(np.moveaxis(default_sets(grid, tg), -1, 0)
                                                 .astype(np.int8)))
     p_default = policies.attack_probabilities(default)
@@ -200,7 +165,7 @@ def _solve_chunk(grid: Grid) -> SeasonBatch:
         i_v = alive * (gv + (p_default * dv).sum(0))
         i_u = mu + alive * (gu + (p_default * du).sum(0))
         switched = better(g_v, g_u, i_v, i_u) & policies.differ(greedy, default)
-        keys[t] = policies.choose(switched, greedy, default)
+        keys[t] = np.where(switched, greedy, default)
         prob = np.where(switched, p_greedy, p_default)
         today = store[t]
         today[:, V, :, 1:] = np.where(switched, g_v, i_v)
@@ -223,7 +188,7 @@ def _solve_chunk(grid: Grid) -> SeasonBatch:
                        tuple(failures))
 
 
-def _forward(grid: Grid, tg: Targets, policies: _Policies, keys: np.ndarray,
+def _forward(grid: Grid, tg: Targets, policies: SetKeys, keys: np.ndarray,
              handling: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Expected kills, survival by day and the end-of-season chance of being in condition.
 
