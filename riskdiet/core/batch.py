@@ -234,8 +234,10 @@ def _solve(grid, extra_direct, max_iterations) -> BatchSolution:
         worst = np.where(bad, np.inf, np.abs(v + u - 1.0).max(-1, initial=0.0))
         inexact = ~bad & ((worst > SUM_LIMIT) | (v.min(-1, initial=0.0) < -SUM_LIMIT)
                           | (u.min(-1, initial=0.0) < -SUM_LIMIT))
-        v = np.where(bad[:, None], 0.0, v).reshape(-1, 2, m)
-        u = np.where(bad[:, None], 1.0, u).reshape(-1, 2, m)
+        # rounded negatives where the true value is 0 are clipped before choices are compared,
+        # as in riskdiet.core.solver.solve_breeding (DEVELOPERS.md, reading 33)
+        v = np.where(bad[:, None], 0.0, np.maximum(v, 0.0)).reshape(-1, 2, m)
+        u = np.where(bad[:, None], 1.0, np.maximum(u, 0.0)).reshape(-1, 2, m)
         values[active, :, 1:top] = v
         comps[active, :, 1:top] = u
         store[active, :, 1:top, 0] = v
