@@ -35,8 +35,8 @@ import numpy as np
 
 from riskdiet.analysis.cells import BASELINE_STAGE, Cell, InputChange, solve_cells
 from riskdiet.analysis.maps import cell_inputs, make_map, request_from_settings
-from riskdiet.core.chain import season_outlook
 from riskdiet.core.grid import make_grid
+from riskdiet.core.season_chain import season_outlook
 from riskdiet.core.solver import solve_season
 from riskdiet.io import load_study
 
