@@ -9,6 +9,10 @@ TERMS = (
     ("fitness", "The chance the model assumes the predator maximises: reaching breeding "
      "condition before dying (breeding currency), or ending the season alive and in "
      "condition (season currency)."),
+    ("fitness currency", "Which of the two goals the model assumes: the breeding currency "
+     "(reaching breeding condition before dying; kills are given per year) or the season "
+     "currency (ending a season of fixed length alive and in condition; kills are given per "
+     "season)."),
     ("fitness at start", "Fitness of a healthy animal with the reserves it has at release."),
     ("policy", "Which prey the predator attacks when it meets them, for every level of "
      "reserves and condition (healthy or injured): the decisions by reserves."),
