@@ -411,10 +411,13 @@ def map_command(
 
             write_map_netcdf(result, netcdf, force, outputs, loaded.name, str(study))
         written = outputs.commit()
+    from riskdiet.analysis.wording import technical
+
     console = _stdout()
     for line in read_map(result, chosen):
         console.print(line)
-    console.print(f"Largest Bellman residual over the map: {result.max_residual:.1e}")
+    console.print("Largest Bellman residual over the map (a check on the solver): "
+                  f"{technical(result.max_residual)}")
     for path in written:
         typer.echo(f"wrote {path}")
 

@@ -197,6 +197,12 @@ class MapRequest:
     where_x: str = "--x"
     where_y: str = "--y"
 
+    def __post_init__(self) -> None:
+        # the value of hunting ability is mapped always; asking for it again would only
+        # repeat its figure, column and sentence
+        if self.gradient == (None, "hunting_ability"):
+            object.__setattr__(self, "gradient", None)
+
 
 def _check_request(study: Study, request: MapRequest) -> None:
     """Every axis value must give valid inputs (checked along both axes and corners)."""

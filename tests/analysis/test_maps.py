@@ -493,3 +493,15 @@ def test_solving_in_small_blocks_gives_the_same_map(monkeypatch):
     assert pieces.rows() == whole.rows()
     np.testing.assert_array_equal(pieces.when_codes, whole.when_codes)
     np.testing.assert_array_equal(pieces.when_threshold, whole.when_threshold)
+
+
+def test_asking_again_for_the_value_of_hunting_ability_adds_nothing():
+    """The value of hunting ability is mapped always (MODEL.md section 4), so a further
+    gradient on hunting_ability is dropped rather than repeated as a second column, figure
+    and sentence; another input is kept (common practice: one quantity, one column)."""
+    study = demo_study()
+    x = parse_axis("hunting_ability=0.5:1.5:2", study, "--x")
+    y = parse_axis("daily_cost_mj=3:5:2", study, "--y")
+    assert MapRequest("baseline", x, y, (None, "hunting_ability")).gradient is None
+    kept = MapRequest("baseline", x, y, ("wild boar", "capture_success"))
+    assert kept.gradient == ("wild boar", "capture_success")
