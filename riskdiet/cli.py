@@ -43,6 +43,17 @@ app = typer.Typer(
 )
 
 STUDY_HELP = "Study file: a filled workbook (.xlsx) or a study file (.json)."
+
+
+def _workers_option():
+    """``--workers``, the same for every command that solves batches."""
+    return typer.Option(1, "--workers", min=1, help="Local worker processes.")
+
+
+def _scheduler_option():
+    """``--scheduler``, the same for every command that can use a Dask cluster."""
+    return typer.Option(None, "--scheduler", help="Address of a running Dask distributed "
+                        "scheduler, e.g. tcp://10.0.0.5:8786 (needs riskdiet\\[cluster]).")
 DEMO = "riskdiet-demo/harrow-vale.xlsx"
 """The study every example uses: written by ``riskdiet demo`` (so examples run after pip)."""
 
@@ -365,10 +376,8 @@ def map_command(
                                         "of this input (FIELD or PREY:FIELD), policy fixed."),
     group: str | None = typer.Option(None, "--group", help="Prey group of the kills map "
                                      "(default: the first group that is not wild)."),
-    workers: int = typer.Option(1, "--workers", min=1, help="Local worker processes."),
-    scheduler: str | None = typer.Option(None, "--scheduler", help="Address of a running Dask "
-                                         "distributed scheduler, e.g. tcp://10.0.0.5:8786 "
-                                         "(needs riskdiet\\[cluster])."),
+    workers: int = _workers_option(),
+    scheduler: str | None = _scheduler_option(),
     quiet: bool = typer.Option(False, "--quiet", help="No progress bar."),
     force: bool = typer.Option(False, "--force", help="Replace existing output files."),
     netcdf: Path | None = typer.Option(None, "--netcdf", help="Also write the map as a "
@@ -536,10 +545,8 @@ def uncertainty(
                                      "(default: the study's draws setting, 1000)."),
     seed: int | None = typer.Option(None, "--seed", min=0, help="Seed of the draws (default: "
                                     "the study's seed setting, 1)."),
-    workers: int = typer.Option(1, "--workers", min=1, help="Local worker processes."),
-    scheduler: str | None = typer.Option(None, "--scheduler", help="Address of a running Dask "
-                                         "distributed scheduler, e.g. tcp://10.0.0.5:8786 "
-                                         "(needs riskdiet\\[cluster])."),
+    workers: int = _workers_option(),
+    scheduler: str | None = _scheduler_option(),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document to stdout."),
     out: Path | None = typer.Option(None, "--out", help="Write the results workbook (.xlsx) "
                                     "with the uncertainty sheets."),
@@ -652,7 +659,7 @@ def fit_command(
     out: Path | None = typer.Option(None, "--out", help="Write a new study workbook (.xlsx) "
                                     "with the fitted values in place."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document to stdout."),
-    workers: int = typer.Option(1, "--workers", min=1, help="Local worker processes."),
+    workers: int = _workers_option(),
     force: bool = typer.Option(False, "--force", help="Replace an existing output file."),
 ) -> None:
     """Fit the inputs named in the fit setting to the Observations sheet (field diet records).

@@ -76,6 +76,28 @@ def grid_of(raw: dict):
     return predator, prey, make_grid(predator, prey)
 
 
+def rounding_below_zero_grid():
+    """The smallest case hypothesis found where a hopeless state solves to about -4e-18:
+    a never-met prey whose attack always kills (fatality edited to 1, which validation
+    forbids) beside a prey that always injures on failure (MODEL.md section 3, "V >= 0")."""
+    import dataclasses
+
+    from riskdiet.model import Predator, Prey
+
+    predator = Predator(name="predator", reserve_capacity_mj=10.0, energy_levels=10,
+                        daily_cost_mj=0.5, hunting_ability=0.5, currency="breeding",
+                        breeding_threshold=1.0, start_reserves=0.5, reserves_after_breeding=0.5,
+                        injured_capture_factor=0.0, background_mortality=0.0)
+    never_met = Prey(name="prey 0", encounters_per_day=0.0, energy_mj=0.0, handling_days=0.0,
+                     capture_success=0.0)
+    hurts = Prey(name="prey 1", encounters_per_day=1.0, energy_mj=1.0, handling_days=0.0,
+                 capture_success=1.0, injury_chance=1.0, injury_energy_mj=1.0)
+    grid = make_grid(predator, (never_met, hurts))
+    fatality = grid.fatality.copy()
+    fatality[0] = 1.0
+    return dataclasses.replace(grid, fatality=fatality)
+
+
 @pytest.fixture
 def example_path() -> Path:
     """The invented demo study shipped with the package."""

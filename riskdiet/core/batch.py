@@ -42,7 +42,7 @@ from threadpoolctl import threadpool_limits
 
 from riskdiet.core.banded import band_layout, deinterleave, factor_solve, interleave
 from riskdiet.core.breeding_plan import ChoicePlan, Interpolated, choice_plan
-from riskdiet.core.choice import RELATIVE_TOLERANCE, better, choice_values, ramp
+from riskdiet.core.choice import better, better_by, choice_values, ramp
 from riskdiet.core.grid import (
     Grid,
     Split,
@@ -368,9 +368,7 @@ def _improve(plan: ChoicePlan, sets: SetKeys, grid: Grid, active: np.ndarray,
     dv = av - gv
     du = au - gu
     upper = av > 0.5
-    worth = np.where(upper & (gv > 0.5),
-                     -du > RELATIVE_TOLERANCE * np.maximum(au, gu),
-                     dv > RELATIVE_TOLERANCE * np.maximum(av, gv))
+    worth = better_by(dv, du, av, au, gv, gu)
     greedy = sets.key(ranks_prey_first(worth, upper, np.where(upper, au, -av)))
     p_greedy = sets.attack_probabilities(greedy, active)
     mu = grid.mortality[..., :, None]

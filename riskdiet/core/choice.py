@@ -48,9 +48,20 @@ def better(xv: np.ndarray, xu: np.ndarray, yv: np.ndarray, yu: np.ndarray) -> np
         On U when both values exceed 1/2 (U_y - U_x > tau max(U_x, U_y)),
         else on V (V_x - V_y > tau max(V_x, V_y)), MODEL.md section 3.
     """
+    return better_by(xv - yv, xu - yu, xv, xu, yv, yu)
+
+
+def better_by(dv: np.ndarray, du: np.ndarray, xv: np.ndarray, xu: np.ndarray, yv: np.ndarray,
+              yu: np.ndarray) -> np.ndarray:
+    """:func:`better` from differences the caller already holds.
+
+    ``dv = xv - yv`` and ``du = xu - yu``; the batched solves keep them for the set
+    values (``G + sum P_i (A_i - G)``), so the rule is applied once, here, on the same
+    numbers (``-(xu - yu)`` is ``yu - xu`` exactly in floating point).
+    """
     upper = (xv > 0.5) & (yv > 0.5)
-    by_u = (yu - xu) > RELATIVE_TOLERANCE * np.maximum(xu, yu)
-    by_v = (xv - yv) > RELATIVE_TOLERANCE * np.maximum(xv, yv)
+    by_u = -du > RELATIVE_TOLERANCE * np.maximum(xu, yu)
+    by_v = dv > RELATIVE_TOLERANCE * np.maximum(xv, yv)
     return np.where(upper, by_u, by_v)
 
 

@@ -40,7 +40,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from riskdiet.core.choice import RELATIVE_TOLERANCE, better, default_sets
+from riskdiet.core.choice import better, better_by, default_sets
 from riskdiet.core.grid import Grid, Targets, take_cells, targets
 from riskdiet.core.ranked_sets import SetKeys, ranks_prey_first
 from riskdiet.core.season_plan import QUANTITIES, S, U, V, backward_step, forward_moves
@@ -155,9 +155,7 @@ def _solve_chunk(grid: Grid) -> SeasonBatch:
         dv = av - gv
         du = au - gu
         upper = av > 0.5
-        worth = np.where(upper & (gv > 0.5),
-                         -du > RELATIVE_TOLERANCE * np.maximum(au, gu),
-                         dv > RELATIVE_TOLERANCE * np.maximum(av, gv))
+        worth = better_by(dv, du, av, au, gv, gu)
         greedy = policies.key(ranks_prey_first(worth, upper, np.where(upper, au, -av)))
         p_greedy = policies.attack_probabilities(greedy)
         g_v = alive * (gv + (p_greedy * dv).sum(0))

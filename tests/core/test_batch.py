@@ -22,7 +22,7 @@ import threading
 
 import numpy as np
 import pytest
-from conftest import grid_of, injury_raw
+from conftest import grid_of, injury_raw, rounding_below_zero_grid
 from threadpoolctl import threadpool_info, threadpool_limits
 
 from riskdiet.core import batch
@@ -244,23 +244,7 @@ def test_batched_solve_clips_rounded_negatives_like_the_single_solve():
     """The case of tests/core/test_solver.py where a hopeless state solves to about -4e-18: a
     never-met, always-fatal prey stays out of the batched policy too, and the batch equals the
     single solve (riskdiet.core.solver.solve_breeding, the reference; MODEL.md section 3)."""
-    import dataclasses
-
-    from riskdiet.core.grid import make_grid
-    from riskdiet.model import Predator, Prey
-
-    predator = Predator(name="predator", reserve_capacity_mj=10.0, energy_levels=10,
-                        daily_cost_mj=0.5, hunting_ability=0.5, currency="breeding",
-                        breeding_threshold=1.0, start_reserves=0.5, reserves_after_breeding=0.5,
-                        injured_capture_factor=0.0, background_mortality=0.0)
-    never_met = Prey(name="prey 0", encounters_per_day=0.0, energy_mj=0.0, handling_days=0.0,
-                     capture_success=0.0)
-    hurts = Prey(name="prey 1", encounters_per_day=1.0, energy_mj=1.0, handling_days=0.0,
-                 capture_success=1.0, injury_chance=1.0, injury_energy_mj=1.0)
-    grid = make_grid(predator, (never_met, hurts))
-    fatality = grid.fatality.copy()
-    fatality[0] = 1.0
-    grid = dataclasses.replace(grid, fatality=fatality)
+    grid = rounding_below_zero_grid()
     single = solve_breeding(grid)
     many = batch.solve_breeding_batch(stack_grids([grid, grid]))
     assert not many.failed.any()

@@ -21,7 +21,7 @@ import math
 
 import numpy as np
 import pytest
-from conftest import EXAMPLE, grid_of, injury_raw
+from conftest import EXAMPLE, grid_of, injury_raw, rounding_below_zero_grid
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from simulation import process_of, simulate_breeding, simulate_season, wilson_interval
@@ -415,17 +415,6 @@ def test_rounding_below_zero_never_puts_a_worthless_attack_in_the_policy():
     -4e-18): V >= 0 because I - P is an M-matrix with a nonnegative inverse (Berman & Plemmons
     1994, ch. 6), so a rounded negative is no reason to prefer a value of 0 (MODEL.md section 3).
     The case is the smallest one hypothesis found for the invariant above."""
-    predator = Predator(name="predator", reserve_capacity_mj=10.0, energy_levels=10,
-                        daily_cost_mj=0.5, hunting_ability=0.5, currency="breeding",
-                        breeding_threshold=1.0, start_reserves=0.5, reserves_after_breeding=0.5,
-                        injured_capture_factor=0.0, background_mortality=0.0)
-    never_met = Prey(name="prey 0", encounters_per_day=0.0, energy_mj=0.0, handling_days=0.0,
-                     capture_success=0.0)
-    hurts = Prey(name="prey 1", encounters_per_day=1.0, energy_mj=1.0, handling_days=0.0,
-                 capture_success=1.0, injury_chance=1.0, injury_energy_mj=1.0)
-    grid = make_grid(predator, (never_met, hurts))
-    fatality = grid.fatality.copy()
-    fatality[0] = 1.0
-    sol = solve_grid(dataclasses.replace(grid, fatality=fatality))
+    sol = solve_grid(rounding_below_zero_grid())
     assert np.all(sol.priority[..., 0] == -1)
     assert np.all(sol.fitness >= 0.0)
