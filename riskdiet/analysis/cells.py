@@ -21,7 +21,7 @@ References
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import Executor, as_completed
 from dataclasses import dataclass
 
@@ -464,32 +464,81 @@ def solve_cells(study: Study, cells: Sequence[Cell], executor: Executor | None =
         A cell whose solve failed has ``failure`` set and NaN numbers; the
         caller decides whether that is an error (naming the cell) or a gap.
     """
-    cells = list(cells)
-    for c in cells:
-        study.scenario(c.scenario)  # an unknown scenario is a programming error: KeyError
+    return next(solve_cell_blocks(study, [cells], executor, chunk, keep_policy, progress,
+                                  cohort))
+
+
+def solve_cell_blocks(study: Study, blocks: Sequence[Sequence[Cell]],
+                      executor: Executor | None = None, chunk: int = 4 * SUB_BATCH,
+                      keep_policy: bool = False,
+                      progress: Callable[[int, int], None] | None = None, cohort: bool = True
+                      ) -> Iterator[list[CellResult]]:
+    """:func:`solve_cells` for a sequence of blocks, each block's results yielded in order.
+
+    With an executor, the next block's chunks are submitted before a block's
+    results are handed over, so the workers keep solving while the caller reads
+    a block (a map reduces each block's policies to regimes in this process),
+    and the results of at most two blocks exist at once.
+
+    Parameters
+    ----------
+    blocks : sequence of sequences of Cell
+    progress : callable, optional
+        ``progress(done_cells, total_cells)`` over all blocks, after each chunk.
+
+    Other parameters are those of :func:`solve_cells`.
+
+    Yields
+    ------
+    list of CellResult
+        One block's results, in input order.
+    """
+    blocks = [list(b) for b in blocks]
+    for block in blocks:
+        for c in block:
+            study.scenario(c.scenario)  # an unknown scenario is a programming error: KeyError
     if chunk < 1:
         raise RiskdietError(f"chunk must be at least 1, found {chunk}")
-    pieces = [cells[i:i + chunk] for i in range(0, len(cells), chunk)]
+    total = sum(len(b) for b in blocks)
     done = 0
-    if executor is None or len(pieces) <= 1:
-        out = []
-        for piece in pieces:
-            out += _solve_chunk(study, piece, keep_policy, cohort)
-            done += len(piece)
-            if progress:
-                progress(done, len(cells))
-        return out
-    futures = {executor.submit(_solve_chunk, study, piece, keep_policy, cohort): k
-               for k, piece in enumerate(pieces)}
-    solved: dict[int, list[CellResult]] = {}
-    for future in as_completed(futures):
-        k = futures[future]
-        solved[k] = future.result()
-        done += len(pieces[k])
-        if progress:
-            progress(done, len(cells))
-    return [r for k in range(len(pieces)) for r in solved[k]]
+
+    def pieces_of(block):
+        return [block[i:i + chunk] for i in range(0, len(block), chunk)]
+
+    def submit(block):
+        pieces = pieces_of(block)
+        if executor is None or len(pieces) <= 1:
+            return pieces, None  # solved here when its turn comes
+        return pieces, [executor.submit(_solve_chunk, study, piece, keep_policy, cohort)
+                        for piece in pieces]
+
+    ahead = submit(blocks[0]) if blocks else None
+    try:
+        for k in range(len(blocks)):
+            pieces, futures = ahead
+            ahead = submit(blocks[k + 1]) if k + 1 < len(blocks) else None
+            if futures is None:
+                out: list[CellResult] = []
+                for piece in pieces:
+                    out += _solve_chunk(study, piece, keep_policy, cohort)
+                    done += len(piece)
+                    if progress:
+                        progress(done, total)
+                yield out
+                continue
+            index = {f: j for j, f in enumerate(futures)}
+            for future in as_completed(futures):
+                future.result()  # a failed task raises here, as soon as it is known
+                done += len(pieces[index[future]])
+                if progress:
+                    progress(done, total)
+            yield [r for future in futures for r in future.result()]
+    finally:
+        # the caller stopped (an error, Ctrl-C): no work left running for nothing
+        if ahead is not None and ahead[1] is not None:
+            for future in ahead[1]:
+                future.cancel()
 
 
 __all__ = ["BASELINE_STAGE", "FINAL_STAGE", "Cell", "CellResult", "InputChange", "cell_inputs",
-           "describe_cell", "set_input", "shape_key", "solve_cells"]
+           "describe_cell", "set_input", "shape_key", "solve_cell_blocks", "solve_cells"]

@@ -30,7 +30,7 @@ from riskdiet.analysis.cells import (
     CellResult,
     InputChange,
     set_input,
-    solve_cells,
+    solve_cell_blocks,
 )
 from riskdiet.analysis.regimes import WHEN_KEYS, classify, when_attacked, when_threshold
 from riskdiet.errors import Problem, SolveError, StudyError, describe
@@ -535,12 +535,12 @@ def make_map(study: Study, request: MapRequest, executor: Executor | None = None
         levels = [base[0].energy_levels] * len(cells)
     reduced = _Reduced([], [], [], [], [], [], [])
     failed: list[CellResult] = []
-    for start in range(0, len(cells), block):
-        part = cells[start:start + block]
-        report = None if progress is None else (
-            lambda done, total, start=start: progress((start + done) // nx, ny))
-        results = solve_cells(study, part, executor, chunk=chunk, keep_policy=True,
-                              progress=report, cohort=False)
+    report = None if progress is None else (lambda done, total: progress(done // nx, ny))
+    starts = range(0, len(cells), block)
+    # the workers solve the next block while this process reads the current one
+    solved = solve_cell_blocks(study, [cells[s:s + block] for s in starts], executor,
+                               chunk=chunk, keep_policy=True, progress=report, cohort=False)
+    for start, results in zip(starts, solved, strict=True):
         bad = [r for r in results if not r.ok]
         failed += bad
         if not failed:

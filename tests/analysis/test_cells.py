@@ -10,7 +10,8 @@ relative (values, kills) and 1e-10 (derivatives), MODEL.md sections 3-5.
 
 from __future__ import annotations
 
-from concurrent.futures import ProcessPoolExecutor
+import threading
+from concurrent.futures import Future, ProcessPoolExecutor, ThreadPoolExecutor
 
 import numpy as np
 import pytest
@@ -22,6 +23,7 @@ from riskdiet.analysis.cells import (
     Cell,
     InputChange,
     cell_inputs,
+    solve_cell_blocks,
     solve_cells,
 )
 from riskdiet.analysis.study import solve_scenario
@@ -134,3 +136,66 @@ def test_results_on_a_dask_cluster_equal_the_inline_run():
     for a, b in zip(inline, remote, strict=True):
         assert a.fitness_at_start == b.fitness_at_start
         np.testing.assert_array_equal(a.cohort_kills, b.cohort_kills)
+
+
+def test_blocks_are_yielded_in_order_with_the_numbers_of_one_call():
+    """solve_cell_blocks on a thread pool hands over each block's results in
+    input order, equal to one solve_cells call on all cells (each cell is solved
+    independently, Puterman 1994), with progress counted over all blocks."""
+    study = _study()
+    blocks = [CELLS[:4], CELLS[4:5], CELLS[5:]]
+    whole = solve_cells(study, CELLS)
+    seen = []
+    with ThreadPoolExecutor(2) as pool:
+        got = list(solve_cell_blocks(study, blocks, pool, chunk=2,
+                                     progress=lambda done, total: seen.append((done, total))))
+    assert [len(b) for b in got] == [4, 1, len(CELLS) - 5]
+    for a, b in zip(whole, [r for block in got for r in block], strict=True):
+        assert a.label == b.label
+        assert a.fitness_at_start == b.fitness_at_start
+        np.testing.assert_array_equal(a.kills_per_predator_per_year,
+                                      b.kills_per_predator_per_year)
+    assert seen[-1] == (len(CELLS), len(CELLS))
+    assert [d for d, _ in seen] == sorted(d for d, _ in seen)
+
+
+class _Recording(ThreadPoolExecutor):
+    """One thread; keeps every future it hands out and holds all but the first
+    ``free`` tasks until released."""
+
+    def __init__(self, free: int):
+        super().__init__(1)
+        self.futures: list[Future] = []
+        self.free = free
+        self.release = threading.Event()
+
+    def submit(self, fn, *args, **kwargs):
+        held = len(self.futures) >= self.free
+
+        def task():
+            if held:
+                self.release.wait(10)
+            return fn(*args, **kwargs)
+        future = super().submit(task)
+        self.futures.append(future)
+        return future
+
+
+def test_the_next_block_is_submitted_early_and_cancelled_when_the_caller_stops():
+    """While the caller reads block 1, block 2's chunks are already submitted
+    (the workers keep going); when the caller stops, the ones not yet running
+    are cancelled, so no work runs for nothing (concurrent.futures
+    documentation: Future.cancel succeeds for a task not yet running)."""
+    study = _study()
+    pool = _Recording(free=2)  # block 1's two chunks run; block 2's wait
+    try:
+        blocks = solve_cell_blocks(study, [CELLS[:4], CELLS[4:8], CELLS[8:]], pool, chunk=2)
+        first = next(blocks)
+        assert len(first) == 4
+        assert len(pool.futures) == 4  # blocks 1 and 2, two chunks each; block 3 not yet
+        blocks.close()
+        # block 2's first chunk holds the one thread; its second never started
+        assert pool.futures[-1].cancelled()
+    finally:
+        pool.release.set()
+        pool.shutdown()
