@@ -464,8 +464,9 @@ def solve_cells(study: Study, cells: Sequence[Cell], executor: Executor | None =
         A cell whose solve failed has ``failure`` set and NaN numbers; the
         caller decides whether that is an error (naming the cell) or a gap.
     """
-    return next(solve_cell_blocks(study, [cells], executor, chunk, keep_policy, progress,
-                                  cohort))
+    (results,) = solve_cell_blocks(study, [cells], executor, chunk, keep_policy, progress,
+                                   cohort)
+    return results
 
 
 def solve_cell_blocks(study: Study, blocks: Sequence[Sequence[Cell]],
@@ -501,16 +502,16 @@ def solve_cell_blocks(study: Study, blocks: Sequence[Sequence[Cell]],
         raise RiskdietError(f"chunk must be at least 1, found {chunk}")
     total = sum(len(b) for b in blocks)
     done = 0
-
-    def pieces_of(block):
-        return [block[i:i + chunk] for i in range(0, len(block), chunk)]
+    submitted: list = []
 
     def submit(block):
-        pieces = pieces_of(block)
+        pieces = [block[i:i + chunk] for i in range(0, len(block), chunk)]
         if executor is None or len(pieces) <= 1:
             return pieces, None  # solved here when its turn comes
-        return pieces, [executor.submit(_solve_chunk, study, piece, keep_policy, cohort)
-                        for piece in pieces]
+        futures = [executor.submit(_solve_chunk, study, piece, keep_policy, cohort)
+                   for piece in pieces]
+        submitted.extend(futures)
+        return pieces, futures
 
     ahead = submit(blocks[0]) if blocks else None
     try:
@@ -534,10 +535,10 @@ def solve_cell_blocks(study: Study, blocks: Sequence[Sequence[Cell]],
                     progress(done, total)
             yield [r for future in futures for r in future.result()]
     finally:
-        # the caller stopped (an error, Ctrl-C): no work left running for nothing
-        if ahead is not None and ahead[1] is not None:
-            for future in ahead[1]:
-                future.cancel()
+        # the caller stopped or a task failed: no work left waiting to run for nothing
+        # (cancelling a finished or running task does nothing)
+        for future in submitted:
+            future.cancel()
 
 
 __all__ = ["BASELINE_STAGE", "FINAL_STAGE", "Cell", "CellResult", "InputChange", "cell_inputs",

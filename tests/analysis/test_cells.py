@@ -199,3 +199,30 @@ def test_the_next_block_is_submitted_early_and_cancelled_when_the_caller_stops()
     finally:
         pool.release.set()
         pool.shutdown()
+
+
+def test_a_failed_task_stops_the_waiting_ones(monkeypatch):
+    """When a chunk's task fails (a worker died), the error reaches the caller
+    and the chunks still waiting, of this block and the next, are cancelled
+    (concurrent.futures documentation: Future.cancel)."""
+    import riskdiet.analysis.cells as cells_module
+
+    real = cells_module._solve_chunk
+
+    def first_fails(study, piece, *args):
+        if piece[0] is CELLS[0]:
+            raise RuntimeError("worker lost")
+        return real(study, piece, *args)
+
+    monkeypatch.setattr(cells_module, "_solve_chunk", first_fails)
+    pool = _Recording(free=1)  # the failing task runs; the others wait
+    try:
+        blocks = solve_cell_blocks(_study(), [CELLS[:6], CELLS[6:10]], pool, chunk=2)
+        with pytest.raises(RuntimeError, match="worker lost"):
+            next(blocks)
+        # the thread may already hold block 1's second task; its third and block 2's never ran
+        assert len(pool.futures) == 5 and not pool.futures[0].cancelled()
+        assert all(f.cancelled() for f in pool.futures[2:])
+    finally:
+        pool.release.set()
+        pool.shutdown()
